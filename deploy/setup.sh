@@ -1,0 +1,45 @@
+#!/usr/bin/env bash
+# Installs, with apt-get, the Debian 12 packages stagewell needs to build, test and run.
+# Idempotent: only packages that are missing are installed; a machine that has them all is left alone.
+# Run as root (or with sudo). Usage: deploy/setup.sh [--with-tests]
+set -euo pipefail
+
+build_packages=(
+  g++ cmake ninja-build pkg-config
+  libboost-dev            # Debian default Boost 1.74: Asio and Beast, header-only (see DEVELOPERS.md)
+  libsqlite3-dev sqlite3  # the store and the analyst's shell
+  libspdlog-dev libfmt-dev
+  libyaml-cpp-dev
+  libcli11-dev            # command-line parsing
+  nlohmann-json3-dev      # JSON output
+  libcctz-dev             # IANA time zones
+)
+test_packages=(
+  doctest-dev
+  libbenchmark-dev
+  python3-pandas python3-scipy   # independent references for the statistics tests
+)
+
+wanted=("${build_packages[@]}")
+if [[ "${1:-}" == "--with-tests" ]]; then
+  wanted+=("${test_packages[@]}")
+fi
+
+missing=()
+for pkg in "${wanted[@]}"; do
+  if ! dpkg-query -W -f='${Status}' "$pkg" 2>/dev/null | grep -q "install ok installed"; then
+    missing+=("$pkg")
+  fi
+done
+
+if ((${#missing[@]} == 0)); then
+  echo "setup: all ${#wanted[@]} packages already installed"
+  exit 0
+fi
+
+SUDO=""
+if [[ $(id -u) -ne 0 ]]; then SUDO="sudo"; fi
+echo "setup: installing ${missing[*]}"
+export DEBIAN_FRONTEND=noninteractive
+$SUDO apt-get update -q
+$SUDO apt-get install -y -q --no-install-recommends "${missing[@]}"

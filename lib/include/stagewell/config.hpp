@@ -1,0 +1,120 @@
+// The configuration: YAML read through yaml-cpp into validated, typed structures. Nothing
+// downstream reads raw YAML. Validation reports every error at once, each naming the file, line
+// and column, the key, the value and what is allowed.
+//
+// Lengths of the section are in the configuration's length unit (m or ft); stage offset and zero
+// flow are in the site's stage units. Relative paths (database, sources) are resolved against the
+// directory of the configuration file.
+#pragma once
+
+#include <filesystem>
+#include <memory>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "stagewell/channel.hpp"
+#include "stagewell/section.hpp"
+#include "stagewell/units.hpp"
+
+namespace stagewell {
+
+struct StageSpec {
+  units::Length units = units::Length::m;
+  double offset = 0.0;     // stage units: added to every reading (sensor offset)
+  double zero_flow = 0.0;  // stage units: stage of zero flow
+};
+
+// Checks on every reading (see README, "Checks"). Durations in seconds. A check whose threshold
+// is unset is off.
+struct ChecksSpec {
+  std::optional<double> min_stage;  // stage units: below -> out_of_range
+  std::optional<double> max_stage;  // stage units: above -> out_of_range
+  std::optional<double> spike;      // stage units: a jump at least this large that comes back
+  int spike_window = 3;             // readings within which a spike must come back
+  std::optional<double> max_rate;   // stage units per hour: faster -> unsteady
+  double flatline_s = 6 * 3600.0;   // the same stage for longer -> flatline; 0 = off
+  double max_gap_s = 3600.0;        // longer since the previous reading -> gap
+  double max_clock_skew_s = 300.0;  // further ahead of the clock -> future
+};
+
+struct SiteConfig {
+  std::string id;
+  std::string name;
+  SectionSpec section;
+  std::vector<double> roughness;  // Manning's n, one per subsection
+  double slope = 0.0;             // energy slope, length per length
+  StageSpec stage;
+  ChecksSpec checks;
+  int line = 0;                   // where the site starts in the file, for messages
+
+  // Depth (config length unit) for a raw stage reading (stage units):
+  // (stage + offset - zero_flow) converted to the configuration's length unit.
+  double depth_for_stage(double stage, units::System system) const;
+  // The inverse: the stage reading (stage units) that gives `depth`.
+  double stage_for_depth(double depth, units::System system) const;
+};
+
+// Which header names hold the fields of a CSV reading.
+struct ColumnNames {
+  std::string site = "site";
+  std::string time = "time";
+  std::string stage = "stage";
+};
+
+// A place readings come from.
+struct SourceSpec {
+  enum class Type { directory, tail };
+  Type type = Type::directory;
+  std::filesystem::path path;       // absolute after loading
+  std::optional<std::string> site;  // every reading belongs to this site (no site column)
+  ColumnNames columns;
+  std::optional<std::string> time_zone;  // for timestamps written without an offset
+  int line = 0;
+};
+
+struct LogSpec {
+  std::optional<std::filesystem::path> file;  // also log to this file (reopened on rotation)
+  std::string level = "info";                  // trace | debug | info | warn | error
+};
+
+struct Config {
+  std::filesystem::path file;      // the file it was read from ("<text>" for parse_config)
+  units::System units = units::System::metric;
+  std::filesystem::path database;  // absolute, or relative to the working directory
+  std::string timezone;            // IANA name or fixed offset "+HH:MM"/"-HH:MM"; default "UTC"
+  std::vector<SiteConfig> sites;
+  std::vector<SourceSpec> sources;
+  LogSpec log;
+
+  const SiteConfig* find_site(std::string_view id) const;  // nullptr when unknown
+};
+
+// "90s", "15m", "2h", "1d" (also "1h30m") -> seconds; nullopt when malformed or negative.
+std::optional<double> parse_duration(std::string_view text);
+
+// One validation error.
+struct ConfigError {
+  std::string file;
+  int line = 0;    // 1-based; 0 when unknown
+  int column = 0;  // 1-based; 0 when unknown
+  std::string key;      // dotted path, e.g. "sites[1].section.width"
+  std::string value;    // the offending value as written, may be empty
+  std::string message;  // what is wrong and what is allowed
+
+  // "demo.yaml:12:14: sites[1].section.width = -2: must be greater than 0"
+  std::string to_string() const;
+};
+
+using ConfigResult = std::expected<Config, std::vector<ConfigError>>;
+
+ConfigResult load_config(const std::filesystem::path& file);
+// `file_name` is used in messages; relative paths resolve against `base_dir`.
+ConfigResult parse_config(std::string_view yaml_text, std::string file_name,
+                          const std::filesystem::path& base_dir);
+
+// The channel of a validated site. REQUIRES: the site came from a successful load.
+std::shared_ptr<const Channel> make_channel(const SiteConfig& site, units::System system);
+
+}  // namespace stagewell
