@@ -32,7 +32,14 @@ struct HydraulicState {
   double velocity = 0.0;          // L/s: Q/A, 0 when dry
   double discharge = 0.0;         // L^3/s
   double froude = 0.0;            // V/sqrt(g A/T); 0 when dry or T = 0
-  Flags flags;                    // below_zero_flow, above_section, surcharged, supercritical
+  // below_zero_flow  depth <= 0 (or NaN): every other field is 0 and `depth` is as given.
+  // above_section    an open section deeper than its top (the walls are taken to continue
+  //                  vertically); never set for a closed conduit.
+  // surcharged       a closed conduit deeper than its crown. The pressure gradient of a surcharged
+  //                  conduit is unknown, so the figures are those of the conduit flowing full at
+  //                  the channel's slope.
+  // supercritical    Froude number above 1.
+  Flags flags;
 };
 
 class Channel {
@@ -47,14 +54,26 @@ class Channel {
   units::System system() const { return system_; }
 
   HydraulicState at_depth(double depth) const;
-  double discharge(double depth) const;  // the same as at_depth(depth).discharge, faster
+  // The same as at_depth(depth).discharge, faster: no allocation, geometry and Manning only.
+  double discharge(double depth) const;
 
-  // Normal depth: the depth at which uniform flow carries `discharge` (L^3/s).
-  // Errors: a negative or non-finite discharge (invalid_argument); more than a closed conduit can
-  // carry in open-channel flow (impossible). Bracketed root finding with a bounded iteration count.
+  // The most this channel carries in open-channel flow: for a closed conduit the peak below the
+  // crown (a circular pipe peaks near 0.938 D at about 1.076 times its full discharge); +infinity
+  // for an open section, whose walls are taken to continue upwards.
+  double max_open_discharge() const { return max_open_discharge_; }
+
+  // Normal depth: the depth at which uniform flow carries `discharge` (L^3/s). Where more than one
+  // depth carries it, the lowest: a circular pipe carries discharges between its full and its
+  // peak discharge at two depths, below and above the peak, and the lower one is returned; a
+  // surveyed section whose discharge dips as a level bench floods likewise. Open sections may give
+  // a depth above top_depth() (vertical walls above the top). 0 for a discharge of 0.
+  // Errors: a negative or non-finite discharge (invalid_argument); more than max_open_discharge()
+  // (impossible). Bisection on a bracket, at most 200 steps, to about 1e-14 relative.
   Result<double> normal_depth(double discharge) const;
 
-  // Critical depth for `discharge`: where Q^2 T / (g A^3) = 1. Same errors as normal_depth.
+  // Critical depth for `discharge`: where Q^2 T / (g A^3) = 1; the lowest such depth (a compound
+  // section can have several). A closed conduit always has one below its crown, where T -> 0.
+  // 0 for a discharge of 0. Errors: a negative or non-finite discharge (invalid_argument).
   Result<double> critical_depth(double discharge) const;
 
  private:
@@ -64,6 +83,10 @@ class Channel {
   units::System system_;
   double k_;
   double gravity_;
+  // k S^(1/2) / n of each subsection: discharge per unit A R^(2/3).
+  std::vector<double> discharge_factors_;
+  double max_open_discharge_;        // L^3/s
+  double max_open_discharge_depth_;  // L: where it occurs (top_depth() for open sections)
 };
 
 }  // namespace stagewell

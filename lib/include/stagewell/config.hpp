@@ -3,10 +3,15 @@
 // and column, the key, the value and what is allowed.
 //
 // Lengths of the section are in the configuration's length unit (m or ft); stage offset and zero
-// flow are in the site's stage units. Relative paths (database, sources) are resolved against the
-// directory of the configuration file.
+// flow are in the site's stage units. Relative paths (database, sources, log file) are resolved
+// against the directory of the configuration file. config/reference.yaml documents every key.
+//
+// Bounds chosen here (lib/src/config/*_keys.cpp): Manning's n from 0.008 to 0.25; energy slope
+// greater than 0 and at most 0.5; widths, diameters and heights greater than 0; side slopes at
+// least 0, not both 0 for a triangular section; at most max_subsections - 1 breaks.
 #pragma once
 
+#include <expected>
 #include <filesystem>
 #include <memory>
 #include <optional>
@@ -41,13 +46,13 @@ struct ChecksSpec {
 
 struct SiteConfig {
   std::string id;
-  std::string name;
+  std::string name;  // the id when not given
   SectionSpec section;
-  std::vector<double> roughness;  // Manning's n, one per subsection
+  std::vector<double> roughness;  // Manning's n, one per subsection (a single n is repeated)
   double slope = 0.0;             // energy slope, length per length
   StageSpec stage;
   ChecksSpec checks;
-  int line = 0;                   // where the site starts in the file, for messages
+  int line = 0;  // where the site starts in the file, for messages
 
   // Depth (config length unit) for a raw stage reading (stage units):
   // (stage + offset - zero_flow) converted to the configuration's length unit.
@@ -76,14 +81,14 @@ struct SourceSpec {
 
 struct LogSpec {
   std::optional<std::filesystem::path> file;  // also log to this file (reopened on rotation)
-  std::string level = "info";                  // trace | debug | info | warn | error
+  std::string level = "info";                 // trace | debug | info | warn | error
 };
 
 struct Config {
-  std::filesystem::path file;      // the file it was read from ("<text>" for parse_config)
+  std::filesystem::path file;  // the file it was read from (absolute), or parse_config's name
   units::System units = units::System::metric;
-  std::filesystem::path database;  // absolute, or relative to the working directory
-  std::string timezone;            // IANA name or fixed offset "+HH:MM"/"-HH:MM"; default "UTC"
+  std::filesystem::path database;  // absolute after loading
+  std::string timezone;            // IANA name or fixed offset "+HH:MM"/"-HH:MM"/"Z"; default "UTC"
   std::vector<SiteConfig> sites;
   std::vector<SourceSpec> sources;
   LogSpec log;
@@ -91,15 +96,21 @@ struct Config {
   const SiteConfig* find_site(std::string_view id) const;  // nullptr when unknown
 };
 
-// "90s", "15m", "2h", "1d" (also "1h30m") -> seconds; nullopt when malformed or negative.
+// "90s", "15m", "2h", "1d" (also "1h30m", "1.5h") -> seconds; nullopt when malformed or negative.
+// Units d, h, m, s, each at most once, largest first; "0" needs no unit.
 std::optional<double> parse_duration(std::string_view text);
+
+// The offset east of UTC, in seconds, of a fixed-offset time zone as a configuration writes it:
+// "+HH:MM", "-HH:MM" (from -12:00 to +14:00) or "Z". nullopt for anything else, such as an IANA
+// name ("America/Denver", "UTC"), which cctz::load_time_zone() opens.
+std::optional<int> fixed_utc_offset_s(std::string_view zone);
 
 // One validation error.
 struct ConfigError {
   std::string file;
-  int line = 0;    // 1-based; 0 when unknown
-  int column = 0;  // 1-based; 0 when unknown
-  std::string key;      // dotted path, e.g. "sites[1].section.width"
+  int line = 0;         // 1-based; 0 when unknown
+  int column = 0;       // 1-based; 0 when unknown
+  std::string key;      // dotted path, e.g. "sites[1].section.width" (0-based list indices)
   std::string value;    // the offending value as written, may be empty
   std::string message;  // what is wrong and what is allowed
 
@@ -114,7 +125,8 @@ ConfigResult load_config(const std::filesystem::path& file);
 ConfigResult parse_config(std::string_view yaml_text, std::string file_name,
                           const std::filesystem::path& base_dir);
 
-// The channel of a validated site. REQUIRES: the site came from a successful load.
+// The channel of a validated site. REQUIRES: the site came from a successful load. nullptr only
+// if make_section() refuses a section that validation accepted (the two disagree: a bug).
 std::shared_ptr<const Channel> make_channel(const SiteConfig& site, units::System system);
 
 }  // namespace stagewell

@@ -27,7 +27,8 @@ constexpr std::array<Entry<Flow>, 5> kFlows{{
     {Flow::litres_per_s, "L/s", "L/s", 0.001},
     {Flow::ft3_per_s, "ft3/s", "ft³/s", cubic_foot_m3},
     {Flow::us_gal_per_min, "gal/min", "US gal/min", us_gallon_m3 / 60.0},
-    {Flow::million_us_gal_per_day, "Mgal/d", "million US gal/d", 1e6 * us_gallon_m3 / seconds_per_day},
+    {Flow::million_us_gal_per_day, "Mgal/d", "million US gal/d",
+     1e6 * us_gallon_m3 / seconds_per_day},
 }};
 
 constexpr std::array<Entry<Volume>, 5> kVolumes{{
@@ -78,7 +79,8 @@ double length_to_m(System system) { return system == System::metric ? 1.0 : foot
 
 double manning_k(System system) {
   // Manning's equation is dimensionally k/n * A R^(2/3) S^(1/2) with n carrying s/m^(1/3); the
-  // same n in feet needs k = (1 ft / 1 m)^(-1/3) = (1/0.3048)^(1/3), exact by the foot's definition.
+  // same n in feet needs k = (1 ft / 1 m)^(-1/3) = (1/0.3048)^(1/3), exact by the foot's
+  // definition.
   static const double k_us = std::cbrt(1.0 / foot_m);
   return system == System::metric ? 1.0 : k_us;
 }
@@ -113,9 +115,7 @@ std::optional<Volume> parse_volume(std::string_view text) { return parse(kVolume
 std::string_view symbol(Volume unit) { return lookup(kVolumes, unit).symbol; }
 std::string_view option_name(Volume unit) { return lookup(kVolumes, unit).option; }
 double to_m3(Volume unit) { return lookup(kVolumes, unit).factor; }
-Volume default_volume(System system) {
-  return system == System::metric ? Volume::m3 : Volume::ft3;
-}
+Volume default_volume(System system) { return system == System::metric ? Volume::m3 : Volume::ft3; }
 
 std::string length_choices() { return choices(kLengths); }
 std::string flow_choices() { return choices(kFlows); }

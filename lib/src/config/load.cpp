@@ -1,0 +1,109 @@
+// The top level of the configuration, and the two ways in: a file, or text.
+#include <cerrno>
+#include <cstring>
+#include <fstream>
+#include <sstream>
+
+#include "config/key_table.hpp"
+#include "config/readers.hpp"
+#include "config/value_readers.hpp"
+
+namespace stagewell {
+namespace {
+
+using namespace config_detail;
+
+const std::vector<Key<Config>>& top_keys() {
+  // Table order is reading order: `units` before `sites` (a site's stage units default to the
+  // system's length unit), `sites` before `sources` (a source may name a site). `units` has no
+  // default: reading feet as metres would be silently wrong by a factor of 3.3.
+  static const std::vector<Key<Config>> keys{
+      {"units", required(), into(unit_system(), &Config::units)},
+      {"database", required(), into(file_path(), &Config::database)},
+      {"timezone", defaults("UTC"), into(time_zone(), &Config::timezone)},
+      {"log", defaults("{}"),
+       [](const At& at, Context& cx, Config& config) { read_log(at, cx, config.log); }},
+      {"sites", required(), read_sites},
+      {"sources", defaults("[]"), read_sources},
+  };
+  return keys;
+}
+
+ConfigError whole_file_error(std::string file, int line, int column, std::string message) {
+  ConfigError error;
+  error.file = std::move(file);
+  error.line = line;
+  error.column = column;
+  error.message = std::move(message);
+  return error;
+}
+
+ConfigResult read_text(std::string_view yaml_text, const std::string& file_name,
+                       const std::filesystem::path& base_dir) {
+  std::vector<YAML::Node> documents;
+  try {
+    documents = YAML::LoadAll(std::string(yaml_text));
+  } catch (const YAML::ParserException& e) {
+    // e.mark is 0-based; e.msg is the message without yaml-cpp's own "line, column" prefix.
+    return std::unexpected(std::vector{whole_file_error(
+        file_name, e.mark.line + 1, e.mark.column + 1, "YAML syntax error: " + e.msg)});
+  }
+  if (documents.empty() || documents.front().IsNull()) {
+    return std::unexpected(std::vector{whole_file_error(
+        file_name, 0, 0, "the configuration is empty; it needs at least units, database, sites")});
+  }
+  if (documents.size() > 1) {
+    return std::unexpected(std::vector{whole_file_error(
+        file_name, 0, 0, "holds more than one YAML document (`---`); write one configuration")});
+  }
+  Context cx(file_name, base_dir);
+  Config config;
+  config.file = file_name;
+  const At top{documents.front(), "", documents.front().Mark()};
+  if (!top.node.IsMap()) {
+    cx.error(top, "the configuration must be a map of `key: value` lines (units, database, ...)");
+  } else {
+    read_map(top, top_keys(), cx, config);
+  }
+  if (cx.error_count() > 0) return std::unexpected(cx.take_errors());
+  return config;
+}
+
+}  // namespace
+
+ConfigResult parse_config(std::string_view yaml_text, std::string file_name,
+                          const std::filesystem::path& base_dir) {
+  // No exception leaves the module: yaml-cpp throws on more than syntax (e.g. bad_alloc, or a
+  // conversion a reader forgot to guard), and std::filesystem may throw too.
+  try {
+    std::error_code ec;
+    std::filesystem::path base = std::filesystem::absolute(base_dir, ec);
+    if (ec) base = base_dir;
+    return read_text(yaml_text, file_name, base.lexically_normal());
+  } catch (const std::exception& e) {
+    return std::unexpected(std::vector{
+        whole_file_error(file_name, 0, 0, std::string("could not be read: ") + e.what())});
+  }
+}
+
+ConfigResult load_config(const std::filesystem::path& file) {
+  std::ifstream in(file, std::ios::binary);
+  if (!in) {
+    return std::unexpected(std::vector{whole_file_error(
+        file.string(), 0, 0, std::string("cannot open: ") + std::strerror(errno))});
+  }
+  std::ostringstream text;
+  text << in.rdbuf();
+  if (in.bad()) {
+    return std::unexpected(std::vector{whole_file_error(
+        file.string(), 0, 0, std::string("cannot read: ") + std::strerror(errno))});
+  }
+  std::error_code ec;
+  std::filesystem::path absolute = std::filesystem::absolute(file, ec);
+  if (ec) absolute = file;
+  auto config = parse_config(text.str(), file.string(), absolute.parent_path());
+  if (config) config->file = absolute.lexically_normal();
+  return config;
+}
+
+}  // namespace stagewell

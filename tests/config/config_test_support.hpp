@@ -1,0 +1,52 @@
+// Helpers for the configuration tests: parse YAML written in a test and look for an error.
+#pragma once
+
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "stagewell/config.hpp"
+
+namespace stagewell::test {
+
+// YAML is written in tests as R"(<newline>...)": the newline after R"( is dropped so that the
+// text's first line is line 1. Lines carry "# N" comments so that a reader can check the numbers.
+inline std::string yaml_text(std::string_view text) {
+  if (!text.empty() && text.front() == '\n') text.remove_prefix(1);
+  return std::string(text);
+}
+
+// The errors of a configuration given as text (none when it loads).
+inline std::vector<ConfigError> errors_of(std::string_view text) {
+  auto result = parse_config(yaml_text(text), "test.yaml", "/srv/flows");
+  if (result) return {};
+  return result.error();
+}
+
+// Every error, one per line, for doctest's INFO().
+inline std::string listing(const std::vector<ConfigError>& errors) {
+  std::string out = errors.empty() ? "(no errors)\n" : "";
+  for (const auto& error : errors) out += error.to_string() + "\n";
+  return out;
+}
+
+// True when an error on `line` reads, in full ("test.yaml:7:14: key = value: message"), with
+// `fragment` somewhere in it.
+inline bool has_error(const std::vector<ConfigError>& errors, int line, std::string_view fragment) {
+  return std::any_of(errors.begin(), errors.end(), [&](const ConfigError& error) {
+    return error.line == line && error.to_string().find(fragment) != std::string::npos;
+  });
+}
+
+// One bad configuration: exactly one error, on `line`, containing `fragment`.
+inline void expect_one_error(std::string_view text, int line, std::string_view fragment) {
+  const auto errors = errors_of(text);
+  INFO(listing(errors));
+  CHECK(errors.size() == 1);
+  CHECK(has_error(errors, line, fragment));
+}
+
+}  // namespace stagewell::test

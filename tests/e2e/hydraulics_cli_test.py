@@ -1,0 +1,262 @@
+#!/usr/bin/env python3
+"""`stagewell flow --json` and `stagewell depth --json` against an independent computation.
+
+The reference here is written separately from the C++ core: closed-form geometry for the
+prismatic shapes (common practice; circular-segment formulas as in V. T. Chow, Open-Channel
+Hydraulics, 1959, appendix A, from memory), a segment-by-segment integration for surveyed
+sections, Manning's equation with k = (1/0.3048)^(1/3) in US units, and scipy.optimize.brentq
+(Debian python3-scipy) for normal and critical depth. Agreement required: 1e-6 relative.
+"""
+import argparse
+import json
+import math
+import os
+import subprocess
+import sys
+import tempfile
+
+from scipy.optimize import brentq
+
+G_SI = 9.80665
+FT = 0.3048
+REL = 1e-6
+
+failures = []
+
+
+def check(label, got, want, rel=REL, abs_tol=1e-12):
+    if want is None or got is None:
+        if got != want:
+            failures.append(f"{label}: got {got}, want {want}")
+        return
+    if not math.isclose(got, want, rel_tol=rel, abs_tol=abs_tol):
+        failures.append(f"{label}: got {got!r}, want {want!r} (rel err {abs(got - want) / max(abs(want), 1e-300):.2e})")
+
+
+# ---- independent geometry: (area, wetted perimeter, top width) per subsection ----
+
+def prismatic(b, zl, zr, height):
+    def geom(y):
+        if y <= 0:
+            return [(0.0, 0.0, 0.0)]
+        # Above the top the walls continue vertically at the top width.
+        yi = min(y, height)
+        area = (b + 0.5 * (zl + zr) * yi) * yi
+        perim = b + yi * (math.sqrt(1 + zl * zl) + math.sqrt(1 + zr * zr))
+        top = b + (zl + zr) * yi
+        if y > height:
+            area += top * (y - height)
+            perim += 2 * (y - height)
+        return [(area, perim, top)]
+    return geom, height
+
+
+def circular(d):
+    def geom(y):
+        if y <= 0:
+            return [(0.0, 0.0, 0.0)]
+        if y >= d:
+            return [(math.pi * d * d / 4, math.pi * d, 0.0)]
+        theta = 2 * math.acos(1 - 2 * y / d)
+        return [(d * d * (theta - math.sin(theta)) / 8, d * theta / 2, d * math.sin(theta / 2))]
+    return geom, d
+
+
+def surveyed(points, breaks):
+    zmin = min(z for _, z in points)
+    top = min(points[0][1], points[-1][1]) - zmin
+    edges = [points[0][0]] + list(breaks) + [points[-1][0]]
+
+    def geom(y):
+        out = []
+        if y <= 0:
+            return [(0.0, 0.0, 0.0) for _ in range(len(edges) - 1)]
+        h = zmin + y
+        # Extend the end points with vertical walls so that depths above the lower bank work.
+        pts = [(points[0][0], max(h, points[0][1]) + 1)] + list(points) + \
+              [(points[-1][0], max(h, points[-1][1]) + 1)]
+        for lo, hi in zip(edges[:-1], edges[1:]):
+            area = perim = top_w = 0.0
+            for (x1, z1), (x2, z2) in zip(pts[:-1], pts[1:]):
+                # Clip the segment to this subsection's stations.
+                a, b_ = max(min(x1, x2), lo), min(max(x1, x2), hi)
+                if x1 == x2:  # vertical wall: belongs to the subsection holding its station
+                    if lo < x1 < hi or x1 == lo == edges[0] or x1 == hi == edges[-1]:
+                        zlo, zhi = min(z1, z2), max(z1, z2)
+                        perim += max(0.0, min(h, zhi) - zlo)
+                    continue
+                if b_ <= a:
+                    continue
+                def z_at(x):
+                    return z1 + (z2 - z1) * (x - x1) / (x2 - x1)
+                za, zb = z_at(a), z_at(b_)
+                # Submerged part of [a, b_]: where z < h.
+                if za >= h and zb >= h:
+                    continue
+                if za < h and zb < h:
+                    sa, sb = a, b_
+                elif za < h:
+                    sa, sb = a, a + (h - za) / (zb - za) * (b_ - a)
+                else:
+                    sa, sb = a + (h - za) / (zb - za) * (b_ - a), b_
+                zsa, zsb = z_at(sa), z_at(sb)
+                area += (sb - sa) * (h - 0.5 * (zsa + zsb))
+                perim += math.hypot(sb - sa, zsb - zsa)
+                top_w += sb - sa
+            out.append((area, perim, top_w))
+        return out
+    return geom, top
+
+
+def state(geom_fn, roughness, slope, k, g, y):
+    parts = geom_fn(y)
+    area = sum(p[0] for p in parts)
+    perim = sum(p[1] for p in parts)
+    top = sum(p[2] for p in parts)
+    q = 0.0
+    for (a, p, _), n in zip(parts, roughness):
+        if a > 0 and p > 0:
+            q += k / n * a * (a / p) ** (2 / 3) * math.sqrt(slope)
+    v = q / area if area > 0 else 0.0
+    froude = v / math.sqrt(g * area / top) if area > 0 and top > 0 else 0.0
+    return dict(area=area, wetted_perimeter=perim, hydraulic_radius=area / perim if perim else 0.0,
+                top_width=top, velocity=v, discharge=q, froude=froude,
+                hydraulic_depth=(area / top if top > 0 else (None if area > 0 else 0.0)))
+
+
+# ---- the channels: (id, section yaml, geometry in metres, n list, slope) ----
+
+def channels():
+    yield ("rect", {"shape": "rectangular", "width": 2.4, "height": 1.2}, prismatic(2.4, 0, 0, 1.2), [0.014], 0.0015)
+    yield ("trap", {"shape": "trapezoidal", "width": 3.0, "side_slope": [1.5, 2.0], "height": 1.5},
+           prismatic(3.0, 1.5, 2.0, 1.5), [0.025], 0.0004)
+    yield ("tri", {"shape": "triangular", "side_slope": 2.0, "height": 0.8}, prismatic(0.0, 2.0, 2.0, 0.8), [0.02], 0.01)
+    yield ("pipe", {"shape": "circular", "diameter": 0.9}, circular(0.9), [0.013], 0.002)
+    pts = [[0.0, 3.0], [1.0, 1.2], [1.0, 0.6], [2.0, 0.0], [3.0, 0.4], [3.5, 1.1], [4.5, 0.3], [6.0, 1.0], [8.0, 2.6]]
+    yield ("creek", {"shape": "surveyed", "points": pts}, surveyed(pts, []), [0.035], 0.003)
+    yield ("creek3", {"shape": "surveyed", "points": pts, "breaks": [1.5, 5.0]}, surveyed(pts, [1.5, 5.0]),
+           [0.045, 0.032, 0.06], 0.003)
+
+
+def scaled_section(section, factor):
+    out = dict(section)
+    for key in ("width", "height", "diameter"):
+        if key in out:
+            out[key] = out[key] * factor
+    if "points" in out:
+        out["points"] = [[x * factor, z * factor] for x, z in out["points"]]
+    if "breaks" in out:
+        out["breaks"] = [x * factor for x in out["breaks"]]
+    return out
+
+
+def write_config(path, system, chans):
+    factor = 1.0 if system == "metric" else 1 / FT
+    lines = [f"units: {system}", "database: test.db", "timezone: UTC", "sites:"]
+    for cid, section, _, ns, slope in chans:
+        lines.append(f"  - id: {cid}")
+        lines.append(f"    name: {cid}")
+        lines.append(f"    section: {json.dumps(scaled_section(section, factor))}")
+        lines.append(f"    roughness: {json.dumps(ns if len(ns) > 1 else ns[0])}")
+        lines.append(f"    slope: {slope}")
+        lines.append(f"    stage: {{units: {'m' if system == 'metric' else 'ft'}, offset: 0.0, zero_flow: 0.0}}")
+    with open(path, "w") as f:
+        f.write("\n".join(lines) + "\n")
+
+
+def run(binary, *args):
+    proc = subprocess.run([binary, *args], capture_output=True, text=True)
+    if proc.returncode != 0:
+        failures.append(f"{' '.join(args)} exited {proc.returncode}: {proc.stderr.strip()}")
+        return None
+    return json.loads(proc.stdout)
+
+
+def main():
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--bin-dir", required=True)
+    parser.add_argument("--source-dir", required=True)
+    args = parser.parse_args()
+    binary = os.path.join(args.bin_dir, "stagewell")
+    chans = list(channels())
+    checked = 0
+    with tempfile.TemporaryDirectory() as tmp:
+        for system in ("metric", "us"):
+            factor = 1.0 if system == "metric" else 1 / FT
+            k = 1.0 if system == "metric" else (1 / FT) ** (1 / 3)
+            g = G_SI * factor
+            config = os.path.join(tmp, f"{system}.yaml")
+            write_config(config, system, chans)
+            for cid, _, (geom_m, top_m), ns, slope in chans:
+                def geom(y, geom_m=geom_m):  # geometry in this system's length unit
+                    return [(a * factor ** 2, p * factor, t * factor) for a, p, t in geom_m(y / factor)]
+                top = top_m * factor
+                # At exactly the crown of a pipe the top width is 0 or a rounding error: not a fair test.
+                fractions = (-0.1, 0.0, 0.02, 0.1, 0.33, 0.5, 0.77, 0.95, 0.999 if cid == "pipe" else 1.0, 1.2)
+                for fraction in fractions:
+                    y = fraction * top
+                    got = run(binary, "flow", "--config", config, "--site", cid, "--stage", repr(y), "--json")
+                    if got is None:
+                        continue
+                    want = state(geom, ns, slope, k, g, y)
+                    label = f"{system} {cid} y={y:.6g}"
+                    check(label + " depth", got["depth"], y, abs_tol=1e-12)
+                    for key in ("area", "wetted_perimeter", "hydraulic_radius", "top_width", "velocity",
+                                "discharge", "froude", "hydraulic_depth"):
+                        check(f"{label} {key}", got[key], want[key])
+                    expect_flags = set()
+                    if y <= 0:
+                        expect_flags.add("below_zero_flow")
+                    if y > top:
+                        expect_flags.add("surcharged" if cid == "pipe" else "above_section")
+                    if want["froude"] > 1:
+                        expect_flags.add("supercritical")
+                    got_flags = set(got["flags"])
+                    if cid == "pipe":  # a surcharged pipe is above its section too: either is fine
+                        got_flags.discard("above_section")
+                    if got_flags != expect_flags:
+                        failures.append(f"{label} flags: got {got['flags']}, want {sorted(expect_flags)}")
+                    checked += 1
+
+                # Normal and critical depth by scipy's brentq on the independent functions.
+                def q_of(y):
+                    return state(geom, ns, slope, k, g, y)["discharge"]
+
+                def crit(y, q):
+                    st = state(geom, ns, slope, k, g, y)
+                    return q * q * st["top_width"] / (g * st["area"] ** 3) - 1
+
+                for fraction in (0.05, 0.4, 0.9):
+                    q = q_of(fraction * top)
+                    got = run(binary, "depth", "--config", config, "--site", cid, "--flow", repr(q), "--json")
+                    if got is None:
+                        continue
+                    # Brackets: a pipe's discharge rises only up to y/D = 0.938 (the lower root is
+                    # the one reported); open sections continue above the top with vertical walls.
+                    upper_n = top * (0.938 if cid == "pipe" else 3.0)
+                    upper_c = top * (0.999 if cid == "pipe" else 3.0)
+                    yn = brentq(lambda y: q_of(y) - q, 1e-12 * top, upper_n, xtol=1e-15, rtol=1e-14)
+                    yc = brentq(lambda y: crit(y, q), 1e-9 * top, upper_c, xtol=1e-15, rtol=1e-14)
+                    label = f"{system} {cid} Q={q:.6g}"
+                    check(label + " normal_depth", got["normal_depth"], yn)
+                    check(label + " critical_depth", got["critical_depth"], yc)
+                    check(label + " normal_stage", got["normal_stage"], yn)
+                    checked += 1
+
+        # Errors: a negative flow, and more than the pipe can carry (exit status 1).
+        metric = os.path.join(tmp, "metric.yaml")
+        for flow in ("-1", "1000"):
+            proc = subprocess.run([binary, "depth", "--config", metric, "--site", "pipe", "--flow", flow, "--json"],
+                                  capture_output=True, text=True)
+            if proc.returncode != 1 or not proc.stderr.strip():
+                failures.append(f"depth --flow {flow} on the pipe: exit {proc.returncode}, stderr {proc.stderr!r}")
+            checked += 1
+
+    for failure in failures:
+        print("FAIL", failure)
+    print(f"{checked - len(failures)} passed, {len(failures)} failed")
+    return 1 if failures else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
