@@ -1,0 +1,206 @@
+// `stagewell flow` (stage -> everything the hydraulics core computes) and `stagewell depth`
+// (discharge -> normal and critical depth). Both use the direct formula, not a rating table.
+#include <fmt/format.h>
+
+#include <cmath>
+#include <iostream>
+#include <memory>
+#include <nlohmann/json.hpp>
+
+#include "commands.hpp"
+
+namespace stagewell::cli {
+namespace {
+
+struct FlowOptions {
+  std::string config_path;
+  std::string site_id;
+  double stage = 0.0;
+  bool json = false;
+};
+
+struct DepthOptions {
+  std::string config_path;
+  std::string site_id;
+  double flow = 0.0;
+  std::string flow_units;  // empty: the configuration's discharge unit
+  bool json = false;
+};
+
+nlohmann::json flags_json(Flags flags) {
+  auto array = nlohmann::json::array();
+  for (auto name : flags.names()) array.push_back(std::string(name));
+  return array;
+}
+
+int run_flow(const FlowOptions& options) {
+  const auto config = load_config_or_report(options.config_path);
+  if (!config) return kInvalidInput;
+  const auto* site = find_site_or_report(*config, options.site_id);
+  if (!site) return kInvalidInput;
+  if (!std::isfinite(options.stage)) {
+    std::cerr << "--stage must be a finite number\n";
+    return kUsage;
+  }
+  const auto system = config->units;
+  const auto channel = make_channel(*site, system);
+  const double depth = site->depth_for_stage(options.stage, system);
+  const HydraulicState state = channel->at_depth(depth);
+
+  if (options.json) {
+    nlohmann::json out = {
+        {"site", site->id},
+        {"stage", options.stage},
+        {"depth", json_number(depth)},
+        {"area", json_number(state.area)},
+        {"wetted_perimeter", json_number(state.wetted_perimeter)},
+        {"hydraulic_radius", json_number(state.hydraulic_radius)},
+        {"top_width", json_number(state.top_width)},
+        {"hydraulic_depth", json_number(state.hydraulic_depth)},
+        {"velocity", json_number(state.velocity)},
+        {"discharge", json_number(state.discharge)},
+        {"froude", json_number(state.froude)},
+        {"flags", flags_json(state.flags)},
+        {"units",
+         {{"stage", units::symbol(site->stage.units)},
+          {"length", units::length_symbol(system)},
+          {"area", units::area_symbol(system)},
+          {"velocity", units::velocity_symbol(system)},
+          {"discharge", units::discharge_symbol(system)}}},
+    };
+    std::cout << out.dump(2) << '\n';
+    return kOk;
+  }
+
+  const auto length = units::length_symbol(system);
+  std::cout << fmt::format("{} ({}), {}\n", site->id, site->name,
+                           describe_section(site->section, system));
+  const auto row = [](std::string_view label, double value, std::string_view unit) {
+    std::cout << fmt::format("  {:<18}{:>12} {}\n", label, format_number(value), unit);
+  };
+  row("stage", options.stage, units::symbol(site->stage.units));
+  row("depth", depth, length);
+  row("flow area", state.area, units::area_symbol(system));
+  row("wetted perimeter", state.wetted_perimeter, length);
+  row("hydraulic radius", state.hydraulic_radius, length);
+  row("top width", state.top_width, length);
+  row("hydraulic depth", state.hydraulic_depth, length);
+  row("mean velocity", state.velocity, units::velocity_symbol(system));
+  row("discharge", state.discharge, units::discharge_symbol(system));
+  const auto other_flow =
+      system == units::System::metric ? units::Flow::litres_per_s : units::Flow::us_gal_per_min;
+  row("",
+      state.discharge * units::to_m3_per_s(units::default_flow(system)) /
+          units::to_m3_per_s(other_flow),
+      units::symbol(other_flow));
+  row("Froude number", state.froude, state.froude > 1.0 ? "(supercritical)" : "(subcritical)");
+  std::cout << fmt::format("  {:<18}{:>12}\n", "flags",
+                           state.flags.empty() ? "none" : state.flags.joined(' '));
+  print_caution(std::cout);
+  return kOk;
+}
+
+int run_depth(const DepthOptions& options) {
+  const auto config = load_config_or_report(options.config_path);
+  if (!config) return kInvalidInput;
+  const auto* site = find_site_or_report(*config, options.site_id);
+  if (!site) return kInvalidInput;
+  const auto system = config->units;
+  double discharge = options.flow;  // in the configuration's discharge unit
+  if (!options.flow_units.empty()) {
+    const auto unit = units::parse_flow(options.flow_units);
+    if (!unit) {
+      std::cerr << "unknown --flow-units '" << options.flow_units
+                << "'; choose one of: " << units::flow_choices() << '\n';
+      return kUsage;
+    }
+    discharge =
+        options.flow * units::to_m3_per_s(*unit) / units::to_m3_per_s(units::default_flow(system));
+  }
+  const auto channel = make_channel(*site, system);
+  const auto normal = channel->normal_depth(discharge);
+  if (!normal) {
+    std::cerr << "normal depth: " << normal.error().message << '\n';
+    return kInvalidInput;
+  }
+  const auto critical = channel->critical_depth(discharge);
+  if (!critical) {
+    std::cerr << "critical depth: " << critical.error().message << '\n';
+    return kInvalidInput;
+  }
+  const double normal_stage = site->stage_for_depth(*normal, system);
+  const double critical_stage = site->stage_for_depth(*critical, system);
+
+  if (options.json) {
+    nlohmann::json out = {
+        {"site", site->id},
+        {"discharge", discharge},
+        {"normal_depth", *normal},
+        {"normal_stage", normal_stage},
+        {"critical_depth", *critical},
+        {"critical_stage", critical_stage},
+        {"units",
+         {{"stage", units::symbol(site->stage.units)},
+          {"length", units::length_symbol(system)},
+          {"discharge", units::discharge_symbol(system)}}},
+    };
+    std::cout << out.dump(2) << '\n';
+    return kOk;
+  }
+  const auto length = units::length_symbol(system);
+  const auto stage_unit = units::symbol(site->stage.units);
+  std::cout << fmt::format("{} ({}), {}\n", site->id, site->name,
+                           describe_section(site->section, system));
+  std::cout << fmt::format("  {:<16}{:>12} {}\n", "discharge", format_number(discharge),
+                           units::discharge_symbol(system));
+  std::cout << fmt::format("  {:<16}{:>12} {}   (stage {} {})\n", "normal depth",
+                           format_number(*normal), length, format_number(normal_stage), stage_unit);
+  std::cout << fmt::format("  {:<16}{:>12} {}   (stage {} {})\n", "critical depth",
+                           format_number(*critical), length, format_number(critical_stage),
+                           stage_unit);
+  std::cout << "  "
+            << (*normal < *critical ? "steep: uniform flow here is supercritical"
+                                    : "mild: uniform flow here is subcritical")
+            << '\n';
+  if (*normal > channel->section().top_depth()) {
+    std::cout << "  warning: normal depth is above the top of the section\n";
+  }
+  print_caution(std::cout);
+  return kOk;
+}
+
+}  // namespace
+
+void add_flow_command(CLI::App& program, Action& chosen) {
+  auto* command = program.add_subcommand(
+      "flow", "Compute depth, geometry, velocity, discharge and Froude number at one stage");
+  auto options = std::make_shared<FlowOptions>();
+  add_config_option(*command, options->config_path);
+  command->add_option("-s,--site", options->site_id, "Site id")->required();
+  command->add_option("--stage", options->stage, "Stage reading, in the site's stage units")
+      ->required();
+  command->add_flag("--json", options->json,
+                    "One JSON object, numbers in the configuration's units");
+  command->final_callback(
+      [&chosen, options] { chosen = [options] { return run_flow(*options); }; });
+}
+
+void add_depth_command(CLI::App& program, Action& chosen) {
+  auto* command = program.add_subcommand(
+      "depth", "Compute normal and critical depth (and their stages) for a discharge");
+  auto options = std::make_shared<DepthOptions>();
+  add_config_option(*command, options->config_path);
+  command->add_option("-s,--site", options->site_id, "Site id")->required();
+  command
+      ->add_option("--flow", options->flow,
+                   "Discharge, in the configuration's unit (m3/s or ft3/s) unless --flow-units")
+      ->required();
+  command->add_option("--flow-units", options->flow_units,
+                      "Unit of --flow: " + units::flow_choices());
+  command->add_flag("--json", options->json,
+                    "One JSON object, numbers in the configuration's units");
+  command->final_callback(
+      [&chosen, options] { chosen = [options] { return run_depth(*options); }; });
+}
+
+}  // namespace stagewell::cli

@@ -1,0 +1,196 @@
+// `stagewell ingest`: the daemon's pipeline run once over files, for back-loading history.
+// Progress is stored like the daemon's, so an interrupted run resumes where it stopped and a
+// finished file is not read twice (unless --again).
+#include <fmt/format.h>
+#include <spdlog/spdlog.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <csignal>
+#include <filesystem>
+#include <iostream>
+#include <memory>
+
+#include "commands.hpp"
+#include "stagewell/file_sources.hpp"
+#include "stagewell/ingestor.hpp"
+#include "stagewell/timestamp.hpp"
+
+namespace stagewell::cli {
+namespace {
+
+namespace fs = std::filesystem;
+
+struct IngestOptions {
+  std::string config_path;
+  std::vector<std::string> paths;
+  std::string site;       // every line belongs to this site
+  std::string time_zone;  // for timestamps without an offset
+  bool again = false;
+  bool quiet = false;
+};
+
+// A progress bar on a terminal; a plain line every few seconds otherwise (logs, pipes).
+class ProgressDisplay {
+ public:
+  explicit ProgressDisplay(bool quiet) : quiet_(quiet), terminal_(::isatty(STDERR_FILENO) != 0) {}
+
+  void update(const std::string& name, std::int64_t done, std::int64_t total, std::int64_t stored) {
+    if (quiet_) return;
+    const auto now = std::chrono::steady_clock::now();
+    const auto interval = terminal_ ? std::chrono::milliseconds(100) : std::chrono::seconds(5);
+    if (now - last_ < interval && done < total) return;
+    last_ = now;
+    const double fraction =
+        total > 0 ? static_cast<double>(done) / static_cast<double>(total) : 1.0;
+    if (terminal_) {
+      constexpr int kWidth = 30;
+      const int filled = static_cast<int>(fraction * kWidth);
+      std::cerr << fmt::format("\r{:<24.24} [{}{}] {:5.1f}%  {} readings stored", name,
+                               std::string(filled, '#'), std::string(kWidth - filled, '.'),
+                               100.0 * fraction, stored)
+                << std::flush;
+    } else {
+      std::cerr << fmt::format("{}: {:.1f}% ({} of {} bytes), {} readings stored\n", name,
+                               100.0 * fraction, done, total, stored);
+    }
+  }
+  void end_line() {
+    if (!quiet_ && terminal_) std::cerr << '\n';
+  }
+
+ private:
+  bool quiet_;
+  bool terminal_;
+  std::chrono::steady_clock::time_point last_{};
+};
+
+void print_summary(const IngestCounts& counts, std::int64_t files) {
+  std::cout << fmt::format(
+      "{} file(s): {} readings stored, {} repeats of stored readings ignored, "
+      "{} lines rejected\n",
+      files, counts.stored, counts.duplicates, counts.rejected);
+  if (!counts.flagged_by_flag.empty()) {
+    std::cout << "flagged:\n";
+    for (const auto& [flag, count] : counts.flagged_by_flag) {
+      std::cout << fmt::format("  {:<18}{:>10}\n", flag, count);
+    }
+  }
+  if (!counts.rejected_by_reason.empty()) {
+    std::cout << "rejected (see the `rejects` view for each line and its reason):\n";
+    for (const auto& [reason, count] : counts.rejected_by_reason) {
+      std::cout << fmt::format("  {:<18}{:>10}\n", reason, count);
+    }
+  }
+}
+
+volatile std::sig_atomic_t g_interrupted = 0;
+
+int run_ingest(const IngestOptions& options) {
+  auto config = load_config_or_report(options.config_path);
+  if (!config) return kInvalidInput;
+  SourceSpec spec;
+  spec.type = SourceSpec::Type::directory;
+  if (!options.site.empty()) {
+    if (!find_site_or_report(*config, options.site)) return kInvalidInput;
+    spec.site = options.site;
+  }
+  if (!options.time_zone.empty()) {
+    if (auto zone = TimeZone::parse(options.time_zone); !zone) {
+      std::cerr << "--time-zone: " << zone.error().message << '\n';
+      return kUsage;
+    }
+    spec.time_zone = options.time_zone;
+  }
+  spdlog::set_level(spdlog::level::warn);  // the summary says what happened
+
+  std::error_code error;
+  fs::create_directories(config->database.parent_path(), error);
+  auto ingestor = Ingestor::open(*config, IngestorOptions{}, system_now_ms);
+  if (!ingestor) {
+    std::cerr << "cannot open the database " << config->database.string() << ": "
+              << ingestor.error().message << '\n';
+    return kInvalidInput;
+  }
+  // SIGINT or SIGTERM: stop after the current chunk and commit, so the next run resumes.
+  std::signal(SIGINT, [](int) { g_interrupted = 1; });
+  std::signal(SIGTERM, [](int) { g_interrupted = 1; });
+
+  ProgressDisplay display(options.quiet);
+  int exit_code = kOk;
+  std::int64_t files = 0;
+  for (const auto& path : options.paths) {
+    const auto key = "ingest:" + fs::absolute(path, error).lexically_normal().string();
+    if (options.again) {
+      // Forget the stored offset: every line is read again (repeats of stored readings are no-ops).
+      if (auto forgot = (*ingestor)->progress(key, {"", 0, (*ingestor)->now_ms()}); !forgot) {
+        std::cerr << forgot.error().message << '\n';
+        return kInvalidInput;
+      }
+    }
+    auto reader = FileReader::open(path, spec, key, **ingestor);
+    if (!reader) {
+      std::cerr << reader.error().message << '\n';
+      exit_code = kInvalidInput;
+      continue;
+    }
+    if ((*reader)->done_bytes() > 0) {
+      std::cerr << fmt::format("{}: resuming at byte {} of {} (--again reads it from the start)\n",
+                               path, (*reader)->done_bytes(), (*reader)->size_bytes());
+    }
+    for (;;) {
+      auto finished = (*reader)->step(kReadChunkBytes * 4);
+      if (!finished) {
+        std::cerr << "\n" << path << ": " << finished.error().message << '\n';
+        return kInvalidInput;
+      }
+      if ((*ingestor)->commit_due() || *finished) {
+        if (auto committed = (*ingestor)->commit(); !committed) {
+          std::cerr << "\ncommit failed: " << committed.error().message
+                    << " (run again to resume from the last commit)\n";
+          return kInvalidInput;
+        }
+      }
+      display.update(fs::path(path).filename().string(), (*reader)->done_bytes(),
+                     (*reader)->size_bytes(), (*ingestor)->counts().stored);
+      if (*finished) break;
+      if (g_interrupted) {
+        (void)(*ingestor)->commit();
+        display.end_line();
+        std::cerr << "interrupted; committed what was read; run again to resume\n";
+        print_summary((*ingestor)->counts(), files);
+        return kInvalidInput;
+      }
+    }
+    display.end_line();
+    ++files;
+  }
+  print_summary((*ingestor)->counts(), files);
+  return exit_code;
+}
+
+}  // namespace
+
+void add_ingest_command(CLI::App& program, Action& chosen) {
+  auto* command = program.add_subcommand(
+      "ingest", "Read CSV files of stage readings into the database once (back-loading history)");
+  auto options = std::make_shared<IngestOptions>();
+  add_config_option(*command, options->config_path);
+  command->add_option("paths", options->paths, "CSV files (header line; site, time, stage columns)")
+      ->required()
+      ->check(CLI::ExistingFile);
+  command->add_option("-s,--site", options->site,
+                      "Every line belongs to this site (the files then need no site column)");
+  command->add_option("--time-zone", options->time_zone,
+                      "Zone of timestamps written without an offset: IANA name or +HH:MM");
+  command->add_flag("--again", options->again,
+                    "Read files from the start even if an earlier run finished them");
+  command->add_flag("-q,--quiet", options->quiet, "No progress display");
+  command->footer(
+      "Readings already stored (same site, time and stage) are ignored; a different stage for a "
+      "stored time is kept in rejects as a conflict. Exit status 1 if any file could not be read.");
+  command->final_callback(
+      [&chosen, options] { chosen = [options] { return run_ingest(*options); }; });
+}
+
+}  // namespace stagewell::cli

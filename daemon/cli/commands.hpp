@@ -1,0 +1,17 @@
+// The subcommands of `stagewell`. Each adds itself to the program and, when chosen on the command
+// line, stores the work to run in `chosen`.
+#pragma once
+
+#include <CLI/CLI.hpp>
+
+#include "common.hpp"
+
+namespace stagewell::cli {
+
+void add_check_command(CLI::App& program, Action& chosen);
+void add_flow_command(CLI::App& program, Action& chosen);
+void add_depth_command(CLI::App& program, Action& chosen);
+void add_table_command(CLI::App& program, Action& chosen);
+void add_ingest_command(CLI::App& program, Action& chosen);
+
+}  // namespace stagewell::cli

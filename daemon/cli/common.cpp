@@ -1,0 +1,87 @@
+#include "common.hpp"
+
+#include <fmt/format.h>
+
+#include <cmath>
+#include <iostream>
+#include <nlohmann/json.hpp>
+
+namespace stagewell::cli {
+
+CLI::Option* add_config_option(CLI::App& command, std::string& path) {
+  return command.add_option("-c,--config", path, "Configuration file (YAML)")
+      ->required()
+      ->check(CLI::ExistingFile);
+}
+
+std::optional<Config> load_config_or_report(const std::string& path) {
+  auto config = load_config(path);
+  if (config) return std::move(*config);
+  for (const auto& error : config.error()) std::cerr << error.to_string() << '\n';
+  std::cerr << path << ": " << config.error().size()
+            << (config.error().size() == 1 ? " error" : " errors") << ", nothing done\n";
+  return std::nullopt;
+}
+
+const SiteConfig* find_site_or_report(const Config& config, const std::string& site_id) {
+  if (const auto* site = config.find_site(site_id)) return site;
+  std::string known;
+  for (const auto& site : config.sites) known += (known.empty() ? "" : ", ") + site.id;
+  std::cerr << "unknown site '" << site_id << "'; the configuration has: " << known << '\n';
+  return nullptr;
+}
+
+std::string format_number(double value, int significant) {
+  if (!std::isfinite(value)) return value > 0 ? "inf" : (value < 0 ? "-inf" : "n/a");
+  if (value == 0.0) return "0";
+  const double magnitude = std::fabs(value);
+  if (magnitude >= 1e-4 && magnitude < 1e9) {
+    // Fixed notation with `significant` significant digits, trailing zeros kept so that columns
+    // of the same quantity line up.
+    const int integer_digits = static_cast<int>(std::floor(std::log10(magnitude))) + 1;
+    const int decimals = std::max(0, significant - integer_digits);
+    return fmt::format("{:.{}f}", value, decimals);
+  }
+  return fmt::format("{:.{}e}", value, significant - 1);
+}
+
+nlohmann::json json_number(double value) {
+  if (!std::isfinite(value)) return nullptr;
+  return value;
+}
+
+void print_caution(std::ostream& out) {
+  out << "Caution: discharge from Manning's equation is an estimate (assumed roughness, steady "
+         "uniform flow);\nverify it with field measurements. Not for life-safety decisions "
+         "without a licensed engineer's review.\n";
+}
+
+std::string describe_section(const SectionSpec& spec, units::System system) {
+  const auto length = units::length_symbol(system);
+  const auto slopes = [&] {
+    if (spec.side_slope_left == spec.side_slope_right) {
+      return fmt::format("side slopes {}:1", format_number(spec.side_slope_left, 3));
+    }
+    return fmt::format("side slopes {}:1 left, {}:1 right", format_number(spec.side_slope_left, 3),
+                       format_number(spec.side_slope_right, 3));
+  };
+  switch (spec.shape) {
+    case Shape::rectangular:
+      return fmt::format("rectangular, {} {} wide, {} {} deep", format_number(spec.width, 3),
+                         length, format_number(spec.height, 3), length);
+    case Shape::trapezoidal:
+      return fmt::format("trapezoidal, bottom {} {}, {}, {} {} deep", format_number(spec.width, 3),
+                         length, slopes(), format_number(spec.height, 3), length);
+    case Shape::triangular:
+      return fmt::format("triangular, {}, {} {} deep", slopes(), format_number(spec.height, 3),
+                         length);
+    case Shape::circular:
+      return fmt::format("circular, {} {} diameter", format_number(spec.diameter, 3), length);
+    case Shape::surveyed:
+      return fmt::format("surveyed, {} points, {} subsection{}", spec.points.size(),
+                         spec.breaks.size() + 1, spec.breaks.empty() ? "" : "s");
+  }
+  return std::string(name(spec.shape));
+}
+
+}  // namespace stagewell::cli

@@ -1,0 +1,265 @@
+#include "service.hpp"
+
+#include <spdlog/spdlog.h>
+
+#include <boost/asio/post.hpp>
+#include <chrono>
+#include <csignal>
+#include <filesystem>
+#include <variant>
+
+#include "stagewell/timestamp.hpp"
+
+namespace stagewell::service {
+namespace {
+
+namespace fs = std::filesystem;
+
+// Bytes one source may read per poll before the loop moves on (keeps signals and other sources
+// responsive while a large file is read).
+constexpr std::size_t kBytesPerPoll = 1 << 20;
+// How often sources are polled for new data when none was waiting.
+constexpr auto kIdlePoll = std::chrono::milliseconds(200);
+// Pause after a failure of the store before reading again.
+constexpr auto kRecoveryPause = std::chrono::seconds(1);
+// How often a line of totals is logged while readings arrive.
+constexpr std::int64_t kReportEveryMs = 60'000;
+
+void ensure_directory(const fs::path& path, std::string_view what) {
+  if (path.empty() || fs::exists(path)) return;
+  std::error_code error;
+  fs::create_directories(path, error);
+  if (error) {
+    spdlog::warn("cannot create {} {}: {}", what, path.string(), error.message());
+  } else {
+    spdlog::info("created {} {}", what, path.string());
+  }
+}
+
+std::string summary(const IngestCounts& counts) {
+  std::string flagged;
+  for (const auto& [flag, count] : counts.flagged_by_flag) {
+    flagged += fmt::format("{}{} {}", flagged.empty() ? "" : ", ", count, flag);
+  }
+  std::string rejected;
+  for (const auto& [reason, count] : counts.rejected_by_reason) {
+    rejected += fmt::format("{}{} {}", rejected.empty() ? "" : ", ", count, reason);
+  }
+  return fmt::format("{} readings stored, {} repeats ignored, {} lines rejected{}{}", counts.stored,
+                     counts.duplicates, counts.rejected,
+                     flagged.empty() ? "" : "; flagged: " + flagged,
+                     rejected.empty() ? "" : "; rejected: " + rejected);
+}
+
+}  // namespace
+
+struct Service::Source {
+  std::variant<DropFolder, TailedFile> impl;
+  std::string label;
+
+  Result<bool> poll(std::size_t max_bytes) {
+    return std::visit([&](auto& source) { return source.poll(max_bytes); }, impl);
+  }
+  void reset() {
+    std::visit([](auto& source) { source.reset(); }, impl);
+  }
+};
+
+Service::Service(boost::asio::io_context& io, std::string config_path, Logging& logging)
+    : io_(io),
+      config_path_(std::move(config_path)),
+      logging_(logging),
+      signals_(io),
+      poll_timer_(io) {}
+
+Service::~Service() = default;
+
+bool Service::start() {
+  auto config = load_config(config_path_);
+  if (!config) {
+    for (const auto& error : config.error()) spdlog::error("{}", error.to_string());
+    spdlog::error("{}: {} configuration error(s); not starting", config_path_,
+                  config.error().size());
+    return false;
+  }
+  if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
+  if (!open(*config)) return false;
+  signals_.add(SIGINT);
+  signals_.add(SIGTERM);
+  signals_.add(SIGHUP);
+  wait_for_signal();
+  schedule_poll(true);
+  return true;
+}
+
+bool Service::open(const Config& config) {
+  ensure_directory(config.database.parent_path(), "database directory");
+  for (const auto& spec : config.sources) {
+    ensure_directory(spec.type == SourceSpec::Type::directory ? spec.path : spec.path.parent_path(),
+                     "source directory");
+  }
+  auto ingestor = Ingestor::open(config, IngestorOptions{}, system_now_ms);
+  if (!ingestor) {
+    spdlog::error("cannot open the database {}: {}", config.database.string(),
+                  ingestor.error().message);
+    return false;
+  }
+  sources_.clear();
+  ingestor_ = std::move(*ingestor);
+  for (const auto& spec : ingestor_->config().sources) {
+    if (spec.type == SourceSpec::Type::directory) {
+      sources_.push_back(std::make_unique<Source>(
+          Source{DropFolder(spec, *ingestor_), "folder " + spec.path.string()}));
+    } else {
+      sources_.push_back(std::make_unique<Source>(
+          Source{TailedFile(spec, *ingestor_), "tail " + spec.path.string()}));
+    }
+  }
+  const auto& loaded = ingestor_->config();
+  std::string site_ids;
+  for (const auto& site : loaded.sites) site_ids += (site_ids.empty() ? "" : ", ") + site.id;
+  spdlog::info(
+      "stagewelld {} started: {} site(s) ({}), {} source(s), database {} (schema version {}), "
+      "{} units",
+      STAGEWELL_VERSION, loaded.sites.size(), site_ids, sources_.size(), loaded.database.string(),
+      ingestor_->store().schema_version(), units::name(loaded.units));
+  for (const auto& source : sources_) spdlog::info("source: {}", source->label);
+  if (sources_.empty()) spdlog::warn("no sources configured: nothing will be read");
+  return true;
+}
+
+void Service::schedule_poll(bool more_waiting) {
+  if (stopping_) return;
+  if (more_waiting) {
+    if (poll_posted_) return;
+    poll_posted_ = true;
+    boost::asio::post(io_, [this] {
+      poll_posted_ = false;
+      poll();
+    });
+    return;
+  }
+  poll_timer_.expires_after(kIdlePoll);
+  poll_timer_.async_wait([this](const boost::system::error_code& error) {
+    if (!error) poll();  // operation_aborted: cancelled at shutdown or reload
+  });
+}
+
+void Service::poll() {
+  if (stopping_ || !ingestor_) return;
+  bool more = false;
+  for (auto& source : sources_) {
+    auto polled = source->poll(kBytesPerPoll);
+    if (!polled) {
+      if (polled.error().kind == ErrorKind::database) {
+        recover(polled.error());
+        return;
+      }
+      // A source's own trouble (a permission, a vanished file): log and go on with the others.
+      spdlog::warn("{}: {}", source->label, polled.error().message);
+      continue;
+    }
+    more = more || *polled;
+  }
+  if (ingestor_->commit_due()) {
+    if (auto committed = ingestor_->commit(); !committed) {
+      recover(committed.error());
+      return;
+    }
+  }
+  const auto now = ingestor_->now_ms();
+  if (now - last_report_ms_ >= kReportEveryMs && ingestor_->counts().commits != reported_.commits) {
+    spdlog::info("totals: {}", summary(ingestor_->counts()));
+    reported_ = ingestor_->counts();
+    last_report_ms_ = now;
+  }
+  logging_.reopen_if_rotated();
+  schedule_poll(more);
+}
+
+void Service::recover(const Error& error) {
+  // Nothing of the failed batch is stored and no progress past it: re-read from stored progress.
+  spdlog::error("store: {}; the batch is dropped and its input will be read again", error.message);
+  if (auto reset = ingestor_->reset(); !reset) {
+    spdlog::error("store: {}", reset.error().message);
+  }
+  for (auto& source : sources_) source->reset();
+  poll_timer_.expires_after(kRecoveryPause);
+  poll_timer_.async_wait([this](const boost::system::error_code& error) {
+    if (!error) poll();
+  });
+}
+
+void Service::wait_for_signal() {
+  signals_.async_wait([this](const boost::system::error_code& error, int signal_number) {
+    if (error) return;  // cancelled at shutdown
+    on_signal(signal_number);
+  });
+}
+
+void Service::on_signal(int signal_number) {
+  if (signal_number == SIGHUP) {
+    reload();
+    wait_for_signal();
+    return;
+  }
+  spdlog::info("{}: stopping; committing what is in hand",
+               signal_number == SIGTERM ? "SIGTERM" : "SIGINT");
+  // From now on the default action applies: a second SIGTERM or SIGINT ends the process at once.
+  boost::system::error_code ignored;
+  signals_.remove(SIGINT, ignored);
+  signals_.remove(SIGTERM, ignored);
+  shut_down();
+}
+
+void Service::shut_down() {
+  stopping_ = true;
+  poll_timer_.cancel();
+  if (ingestor_) {
+    if (auto committed = ingestor_->commit(); !committed) {
+      spdlog::error("final commit failed: {}; that input will be read again at the next start",
+                    committed.error().message);
+      exit_code_ = 1;
+    }
+    spdlog::info("stopped; {}", summary(ingestor_->counts()));
+  }
+  boost::system::error_code ignored;
+  signals_.cancel(ignored);  // nothing is left waiting: io_context::run() returns
+}
+
+void Service::reload() {
+  logging_.reopen();
+  spdlog::info("SIGHUP: reloading {}", config_path_);
+  auto config = load_config(config_path_);
+  if (!config) {
+    for (const auto& error : config.error()) spdlog::error("{}", error.to_string());
+    spdlog::error("the new configuration has {} error(s); keeping the running one",
+                  config.error().size());
+    return;
+  }
+  if (auto committed = ingestor_->commit(); !committed) {
+    spdlog::error("commit before reload failed: {}", committed.error().message);
+  }
+  const auto totals = ingestor_->counts();
+  const Config previous = ingestor_->config();
+  auto old_ingestor = std::move(ingestor_);
+  auto old_sources = std::move(sources_);
+  sources_.clear();
+  old_sources.clear();
+  old_ingestor.reset();  // closes the database before it is opened again
+  if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
+  if (!open(*config)) {
+    // The new configuration's database cannot be opened: go back to the running configuration.
+    spdlog::error("reload failed; going on with the configuration that was running");
+    if (auto problem = logging_.apply(previous.log)) spdlog::warn("{}", *problem);
+    if (!open(previous)) {
+      spdlog::error("cannot reopen the running configuration either; stopping");
+      exit_code_ = 1;
+      shut_down();
+      return;
+    }
+  }
+  spdlog::info("reloaded; totals before the reload: {}", summary(totals));
+}
+
+}  // namespace stagewell::service

@@ -1,0 +1,58 @@
+// The service: one Boost.Asio io_context runs every source, the batch commits and the signals.
+//
+// Signals set state; the work happens in the loop. SIGTERM or SIGINT: stop taking input, commit
+// what is in hand, return (exit 0); a second one ends the process at once (the default action is
+// restored after the first). SIGHUP: reopen the log file and reload the configuration, validated
+// first; an invalid one is logged and the running one kept.
+#pragma once
+
+#include <boost/asio/io_context.hpp>
+#include <boost/asio/signal_set.hpp>
+#include <boost/asio/steady_timer.hpp>
+#include <memory>
+#include <string>
+#include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
+#include <vector>
+
+#include "logging.hpp"
+#include "stagewell/file_sources.hpp"
+#include "stagewell/ingestor.hpp"
+
+namespace stagewell::service {
+
+class Service {
+ public:
+  Service(boost::asio::io_context& io, std::string config_path, Logging& logging);
+  ~Service();
+
+  // Loads the configuration and starts everything. Returns false (after logging why) when the
+  // configuration or the database cannot be used.
+  bool start();
+  int exit_code() const { return exit_code_; }
+
+ private:
+  struct Source;
+  bool open(const Config& config);
+  void schedule_poll(bool more_waiting);
+  void poll();
+  void recover(const Error& error);
+  void wait_for_signal();
+  void on_signal(int signal_number);
+  void reload();
+  void shut_down();
+
+  boost::asio::io_context& io_;
+  std::string config_path_;
+  Logging& logging_;
+  boost::asio::signal_set signals_;
+  boost::asio::steady_timer poll_timer_;
+  std::unique_ptr<Ingestor> ingestor_;
+  std::vector<std::unique_ptr<Source>> sources_;
+  bool stopping_ = false;
+  bool poll_posted_ = false;
+  int exit_code_ = 0;
+  std::int64_t last_report_ms_ = 0;
+  IngestCounts reported_;
+};
+
+}  // namespace stagewell::service

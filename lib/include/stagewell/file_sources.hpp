@@ -1,0 +1,128 @@
+// File sources: a drop folder (each new file read once, then moved to <folder>/done/), a tailed
+// file (followed as a logger appends; resumed after a restart; truncation and rotation handled),
+// and a single file read to its end (`stagewell ingest`). Each is polled by its owner — the
+// daemon's io_context or the ingest command's loop — and does a bounded amount of work per poll,
+// so signals and other sources are never starved.
+//
+// Progress (file identity and byte offset) goes into the same transaction as the readings it
+// covers, under the source key "<kind>:<absolute path>".
+//
+// Not thread-safe: each belongs to the thread that polls it.
+#pragma once
+
+#include <cstdint>
+#include <filesystem>
+#include <memory>
+#include <optional>
+#include <set>
+#include <string>
+
+#include "stagewell/ingestor.hpp"
+#include "stagewell/stream_reader.hpp"
+
+namespace stagewell {
+
+// Bytes read from a file per read call.
+inline constexpr std::size_t kReadChunkBytes = 64 * 1024;
+
+// An open file descriptor with one owner.
+class FileHandle {
+ public:
+  FileHandle() = default;
+  explicit FileHandle(int fd) : fd_(fd) {}
+  FileHandle(FileHandle&& other) noexcept : fd_(std::exchange(other.fd_, -1)) {}
+  FileHandle& operator=(FileHandle&& other) noexcept;
+  FileHandle(const FileHandle&) = delete;
+  FileHandle& operator=(const FileHandle&) = delete;
+  ~FileHandle();
+
+  static Result<FileHandle> open_read(const std::filesystem::path& path);
+  int fd() const { return fd_; }
+  explicit operator bool() const { return fd_ >= 0; }
+
+ private:
+  int fd_ = -1;
+};
+
+// What identifies a file across renames: "device:inode".
+Result<std::string> file_identity(const FileHandle& file);
+Result<std::string> file_identity(const std::filesystem::path& path);
+
+// Reads one file from its stored progress to its end.
+class FileReader {
+ public:
+  static Result<std::unique_ptr<FileReader>> open(const std::filesystem::path& path,
+                                                  const SourceSpec& spec, std::string source_key,
+                                                  Ingestor& ingestor);
+  // Reads and processes up to `max_bytes`; true once the whole file is processed (the final
+  // progress is then in the open batch: commit before acting on it).
+  Result<bool> step(std::size_t max_bytes);
+
+  std::int64_t size_bytes() const { return size_; }
+  std::int64_t done_bytes() const { return reader_->consumed_bytes(); }
+  std::int64_t lines() const { return reader_->lines(); }
+  const std::filesystem::path& path() const { return path_; }
+
+ private:
+  FileReader() = default;
+  std::filesystem::path path_;
+  std::string source_key_;
+  std::string identity_;
+  FileHandle file_;
+  std::int64_t size_ = 0;
+  std::unique_ptr<StreamReader> reader_;
+  Ingestor* ingestor_ = nullptr;
+  bool finished_ = false;
+};
+
+// A folder other programs drop CSV files into. Files whose names start with '.' or end in .tmp
+// or .part are being written and are left alone, and so is a file modified within the last
+// `settle_ms` (a writer that does not rename).
+class DropFolder {
+ public:
+  DropFolder(SourceSpec spec, Ingestor& ingestor, std::int64_t settle_ms = 2000);
+
+  // One poll: continues the file in hand or picks the next; returns true when more work is
+  // waiting (poll again soon).
+  Result<bool> poll(std::size_t max_bytes);
+  // Forgets the file in hand, to be re-read from stored progress (after a failed commit).
+  void reset();
+
+  std::int64_t files_done() const { return files_done_; }
+
+ private:
+  Result<void> finish_current();
+
+  SourceSpec spec_;
+  Ingestor& ingestor_;
+  std::int64_t settle_ms_;
+  std::unique_ptr<FileReader> current_;
+  std::set<std::string> unreadable_;  // files that failed to open, not retried until they change
+  std::int64_t files_done_ = 0;
+};
+
+// A file a logger keeps appending to.
+class TailedFile {
+ public:
+  TailedFile(SourceSpec spec, Ingestor& ingestor);
+
+  // One poll: notices truncation (the file is shorter than what was read: read again from the
+  // start) and rotation (the path now names another file: the old one is read to its end first),
+  // then reads up to `max_bytes` of new lines. Returns true when more is waiting.
+  Result<bool> poll(std::size_t max_bytes);
+  void reset();
+
+ private:
+  Result<void> start(bool resume);
+
+  SourceSpec spec_;
+  std::string source_key_;
+  Ingestor& ingestor_;
+  FileHandle file_;
+  std::string identity_;
+  std::unique_ptr<StreamReader> reader_;
+  std::int64_t offset_ = 0;  // bytes of the file fed to reader_
+  bool missing_logged_ = false;
+};
+
+}  // namespace stagewell

@@ -1,0 +1,103 @@
+// The ingest pipeline's core: a parsed record -> depth, checks, rating -> a stored reading, with
+// rejects and source progress written in the same transaction (see store.hpp, "Durability").
+//
+// Every source (drop folder, tailed file, socket, `stagewell ingest`) feeds one Ingestor, which
+// owns the store connection, the per-site rating tables and check state, and the open batch.
+// Batches are committed when they reach `max_batch_readings` or are older than `max_batch_age_ms`
+// — whichever comes first — so that throughput stays high and a live reading is visible within
+// about a second.
+//
+// Not thread-safe: it belongs to the thread that runs the sources (the daemon's io_context).
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <map>
+#include <memory>
+#include <string>
+#include <string_view>
+
+#include "stagewell/config.hpp"
+#include "stagewell/records.hpp"
+#include "stagewell/result.hpp"
+#include "stagewell/store.hpp"
+
+namespace stagewell {
+
+// What was done, for logs, summaries and metrics. Counts since the Ingestor was opened.
+struct IngestCounts {
+  std::int64_t stored = 0;      // new readings stored
+  std::int64_t duplicates = 0;  // repeats of a stored (site, time, stage): nothing done
+  std::int64_t rejected = 0;    // lines kept in rejects (including conflicts)
+  std::map<std::string, std::int64_t, std::less<>>
+      rejected_by_reason;                                            // RejectKind name, "conflict"
+  std::map<std::string, std::int64_t, std::less<>> flagged_by_flag;  // flag name -> readings
+  std::int64_t commits = 0;
+
+  void add(const IngestCounts& other);
+};
+
+struct IngestorOptions {
+  std::int64_t max_batch_readings = 20000;
+  std::int64_t max_batch_age_ms = 1000;
+  StoreOptions store;
+};
+
+// Milliseconds since the epoch; injectable so tests control "now" (the `future` check).
+using Clock = std::function<std::int64_t()>;
+
+// Where a record or a reject came from.
+struct SourcePosition {
+  std::string_view source;  // the source's name: a file path, "tcp 127.0.0.1:50312"
+  std::int64_t line = 0;    // 1-based line number within the source's stream
+  std::string_view raw;     // the line as read, kept with a reject
+};
+
+class Ingestor {
+ public:
+  // Opens (creating if needed) the configured database, records each site's configuration version
+  // and restores each site's check state from its stored readings.
+  static Result<std::unique_ptr<Ingestor>> open(const Config& config,
+                                                const IngestorOptions& options, Clock clock);
+  ~Ingestor();
+
+  // Known site? (For the record parser.)
+  bool has_site(std::string_view site_id) const;
+
+  // Converts, checks and stores one record.
+  Result<void> reading(const Record& record, const SourcePosition& at);
+
+  // Keeps a line that could not be used. `kind` is a short name counted in the summary and
+  // metrics (a RejectKind name, or "bad_header"); `reason` a sentence for a person.
+  Result<void> reject(std::string_view kind, std::string_view reason, const SourcePosition& at);
+
+  // Records how far `source_key` has been read; committed with the readings before it.
+  Result<void> progress(std::string_view source_key, const IngestProgress& progress);
+
+  // True when the open batch should be committed now (size or age).
+  bool commit_due() const;
+  // Commits the open batch, if any. On failure nothing of it is stored; the caller must re-read
+  // every source from its stored progress (reset()).
+  Result<void> commit();
+  // Drops the open batch and restores the check state from the store (after a failed commit).
+  Result<void> reset();
+
+  // Progress stored for a source (committed state).
+  Result<std::optional<IngestProgress>> stored_progress(std::string_view source_key);
+
+  const IngestCounts& counts() const { return counts_; }
+  const Config& config() const;
+  Store& store();
+  std::int64_t now_ms() const;
+
+ private:
+  struct Site;
+  struct State;
+  explicit Ingestor(std::unique_ptr<State> state);
+  Result<WriteBatch*> batch();
+
+  std::unique_ptr<State> state_;
+  IngestCounts counts_;
+};
+
+}  // namespace stagewell

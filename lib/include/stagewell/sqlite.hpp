@@ -1,0 +1,154 @@
+// A thin owner of SQLite's C handles, used by the store (and by tests that need a second,
+// independent connection). One RAII owner per handle: Connection owns the sqlite3*, Statement
+// owns a sqlite3_stmt*. Every SQLite result code that is an error becomes a stagewell::Error
+// (kind database) in exactly one function, to_error().
+//
+// Not thread-safe: a connection and its statements belong to one thread at a time.
+#pragma once
+
+#include <cstdint>
+#include <filesystem>
+#include <functional>
+#include <memory>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <unordered_map>
+#include <utility>
+
+#include "stagewell/result.hpp"
+
+struct sqlite3;
+struct sqlite3_stmt;
+
+namespace stagewell::sqlite {
+
+class Connection;
+
+// The one conversion of a SQLite result code to an Error (kind database). `doing` says what was
+// being attempted ("opening /var/x.db"). Uses the connection's message when it belongs to `code`,
+// otherwise SQLite's generic text for the code (an injected fault has no message of its own).
+Error to_error(int code, sqlite3* db, std::string_view doing);
+
+// True for SQLITE_BUSY and its extended codes: another connection holds a lock we need.
+bool is_busy(int code);
+
+// Called before every sqlite3_step on a connection with the statement's SQL text. Returning a
+// result code makes that step fail with the code without running it. For tests only: this is the
+// seam where faults are injected ("fail the Nth step").
+using StepHook = std::function<std::optional<int>(std::string_view sql)>;
+
+// A prepared statement. Binding errors are kept and reported by the next step(), so that a
+// sequence of bind() calls needs no checks of its own. Parameter indexes start at 1, column
+// indexes at 0 (as in SQLite).
+// REQUIRES: does not outlive the Connection that prepared it.
+class Statement {
+ public:
+  Statement(Statement&& other) noexcept;
+  Statement& operator=(Statement&& other) noexcept;
+  Statement(const Statement&) = delete;
+  Statement& operator=(const Statement&) = delete;
+  ~Statement();  // finalizes
+
+  void bind(int index, std::int64_t value);
+  void bind(int index, double value);
+  void bind(int index, std::string_view text);        // copied by SQLite (SQLITE_TRANSIENT)
+  void bind(int index, std::optional<double> value);  // NULL when empty
+  void bind_null(int index);
+
+  // Runs one step: true when a row is ready, false when the statement is done.
+  Result<bool> step();
+  // Runs one step and returns SQLite's raw result code (SQLITE_ROW, SQLITE_DONE or an error),
+  // for a caller that must react to a particular code (the busy retry). Bind errors come back as
+  // their code.
+  int step_code();
+  // Steps until done, ignoring rows (DDL, pragmas, INSERT/UPDATE).
+  Result<void> run();
+  // Ready to run again: resets and clears the bindings.
+  void reset();
+
+  std::int64_t column_int64(int column) const;
+  double column_double(int column) const;
+  std::optional<double> column_optional_double(int column) const;  // empty when NULL
+  std::string column_text(int column) const;
+  bool column_is_null(int column) const;
+
+  std::string_view sql() const;
+
+ private:
+  friend class Connection;
+  Statement(Connection* connection, sqlite3_stmt* statement);
+
+  Connection* connection_ = nullptr;
+  sqlite3_stmt* statement_ = nullptr;
+  int bind_error_ = 0;  // SQLITE_OK, or the first failed bind's code
+};
+
+// A cached statement on loan: reset (with bindings cleared) when the loan ends, so that no cached
+// statement keeps a read transaction open after its caller is done with it.
+class CachedStatement {
+ public:
+  explicit CachedStatement(Statement* statement) : statement_(statement) {}
+  CachedStatement(CachedStatement&& other) noexcept
+      : statement_(std::exchange(other.statement_, nullptr)) {}
+  CachedStatement(const CachedStatement&) = delete;
+  CachedStatement& operator=(const CachedStatement&) = delete;
+  CachedStatement& operator=(CachedStatement&&) = delete;
+  ~CachedStatement() {
+    if (statement_ != nullptr) statement_->reset();
+  }
+  Statement* operator->() const { return statement_; }
+  Statement& operator*() const { return *statement_; }
+
+ private:
+  Statement* statement_;
+};
+
+class Connection {
+ public:
+  enum class Access { read_write_create, read_only };
+
+  // Opens (read-write: creating) the database file. The caller checks that the directory exists.
+  static Result<std::unique_ptr<Connection>> open(const std::filesystem::path& path, Access access);
+
+  Connection(const Connection&) = delete;
+  Connection& operator=(const Connection&) = delete;
+  ~Connection();  // finalizes the cached statements, then closes
+
+  Result<Statement> prepare(std::string_view sql);
+  // The statement for `sql`, prepared on first use and reused afterwards (the hot path).
+  Result<CachedStatement> cached(std::string_view sql);
+  // Runs one or more ';'-separated statements, discarding any rows (migrations, pragmas). Each
+  // statement is stepped through Statement, so the step hook sees it.
+  Result<void> exec(std::string_view sql);
+  // The first column of the first row of `sql` (e.g. "PRAGMA user_version").
+  Result<std::int64_t> query_int64(std::string_view sql);
+  Result<std::string> query_text(std::string_view sql);
+
+  std::int64_t changes() const;  // rows changed by the last INSERT/UPDATE/DELETE
+  bool in_transaction() const;   // false in autocommit mode
+  Access access() const { return access_; }
+  const std::filesystem::path& path() const { return path_; }
+  sqlite3* handle() const { return db_; }
+
+  void set_step_hook(StepHook hook) { step_hook_ = std::move(hook); }
+
+ private:
+  friend class Statement;
+  Connection(sqlite3* db, std::filesystem::path path, Access access);
+
+  sqlite3* db_ = nullptr;
+  std::filesystem::path path_;
+  Access access_;
+  StepHook step_hook_;
+  // Looked up by string_view without building a std::string: cached() is on the per-reading path.
+  struct SqlHash {
+    using is_transparent = void;
+    std::size_t operator()(std::string_view sql) const {
+      return std::hash<std::string_view>{}(sql);
+    }
+  };
+  std::unordered_map<std::string, std::unique_ptr<Statement>, SqlHash, std::equal_to<>> cache_;
+};
+
+}  // namespace stagewell::sqlite

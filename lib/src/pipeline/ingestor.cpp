@@ -1,0 +1,251 @@
+#include "stagewell/ingestor.hpp"
+
+#include <fmt/format.h>
+
+#include <unordered_map>
+#include <vector>
+
+#include "site_json.hpp"
+#include "stagewell/checks.hpp"
+#include "stagewell/rating.hpp"
+#include "supercritical.hpp"
+
+namespace stagewell {
+namespace {
+
+// Readings restored into each site's checks at start-up: the check window, and for flatline every
+// reading back to the flatline duration (bounded so a 1-second logger cannot make start-up slow).
+constexpr std::size_t kSeedReadings = 4096;
+
+}  // namespace
+
+void IngestCounts::add(const IngestCounts& other) {
+  stored += other.stored;
+  duplicates += other.duplicates;
+  rejected += other.rejected;
+  commits += other.commits;
+  for (const auto& [reason, count] : other.rejected_by_reason) rejected_by_reason[reason] += count;
+  for (const auto& [flag, count] : other.flagged_by_flag) flagged_by_flag[flag] += count;
+}
+
+struct Ingestor::Site {
+  const SiteConfig* config = nullptr;
+  std::shared_ptr<const Channel> channel;
+  std::unique_ptr<RatingTable> rating;
+  std::unique_ptr<SupercriticalDepths> supercritical;
+  SiteChecker checker;
+  SiteKey key;
+  ConfigVersionId version;
+  double top_depth = 0.0;  // length unit of the configuration
+
+  explicit Site(const SiteConfig& site) : config(&site), checker(site.checks) {}
+};
+
+struct Ingestor::State {
+  Config config;
+  IngestorOptions options;
+  Clock clock;
+  Store store;
+  std::unordered_map<std::string, std::unique_ptr<Site>> sites;
+  std::optional<WriteBatch> batch;
+  std::int64_t batch_started_ms = 0;
+  std::int64_t batch_readings = 0;
+  IngestCounts pending;  // counts of the open batch, added to the totals on commit
+
+  State(Config c, IngestorOptions o, Clock k, Store s)
+      : config(std::move(c)), options(o), clock(std::move(k)), store(std::move(s)) {}
+};
+
+namespace {
+
+Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker) {
+  auto stored = store.recent_readings(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
+  if (!stored) return std::unexpected(stored.error());
+  std::vector<PastReading> past;
+  past.reserve(stored->size());
+  for (const auto& reading : *stored) {
+    if (reading.flags.has(Flag::future)) continue;
+    past.push_back({reading.time_ms, reading.stage});
+  }
+  checker.seed(past);
+  return {};
+}
+
+}  // namespace
+
+Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
+                                                 const IngestorOptions& options, Clock clock) {
+  auto store = Store::open(config.database, options.store);
+  if (!store) return std::unexpected(store.error());
+  auto state = std::make_unique<State>(config, options, std::move(clock), std::move(*store));
+  const auto now = state->clock();
+  for (const auto& site_config : state->config.sites) {
+    auto site = std::make_unique<Site>(site_config);
+    site->channel = make_channel(site_config, state->config.units);
+    site->rating = std::make_unique<RatingTable>(site->channel);
+    site->top_depth = site->channel->section().top_depth();
+    site->supercritical = std::make_unique<SupercriticalDepths>(*site->channel, site->top_depth);
+    auto key = state->store.ensure_site(site_config.id);
+    if (!key) return std::unexpected(key.error());
+    site->key = *key;
+    auto version =
+        state->store.record_config(*key, site_config_json(site_config, state->config.units), now);
+    if (!version) return std::unexpected(version.error());
+    site->version = *version;
+    if (auto seeded = seed_checker(state->store, site->key, site->checker); !seeded) {
+      return std::unexpected(seeded.error());
+    }
+    state->sites.emplace(site_config.id, std::move(site));
+  }
+  return std::unique_ptr<Ingestor>(new Ingestor(std::move(state)));
+}
+
+Ingestor::Ingestor(std::unique_ptr<State> state) : state_(std::move(state)) {}
+Ingestor::~Ingestor() = default;
+
+const Config& Ingestor::config() const { return state_->config; }
+Store& Ingestor::store() { return state_->store; }
+std::int64_t Ingestor::now_ms() const { return state_->clock(); }
+
+bool Ingestor::has_site(std::string_view site_id) const {
+  return state_->sites.find(std::string(site_id)) != state_->sites.end();
+}
+
+Result<WriteBatch*> Ingestor::batch() {
+  if (!state_->batch) {
+    auto batch = state_->store.begin();
+    if (!batch) return std::unexpected(batch.error());
+    state_->batch.emplace(std::move(*batch));
+    state_->batch_started_ms = state_->clock();
+    state_->batch_readings = 0;
+  }
+  return &*state_->batch;
+}
+
+Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
+  const auto found = state_->sites.find(std::string(record.site));
+  if (found == state_->sites.end()) {
+    // The record parser checks sites; this guards callers that skip it.
+    return fail(ErrorKind::not_found, fmt::format("unknown site '{}'", record.site));
+  }
+  Site& site = *found->second;
+  const auto system = state_->config.units;
+
+  const CheckResult checked = site.checker.check(record.time_ms, record.stage, state_->clock());
+  StoredReading out;
+  out.site = site.key;
+  out.time_ms = record.time_ms;
+  out.stage = record.stage;
+  out.config = site.version;
+  out.flags = checked.flags;
+  out.depth = site.config->depth_for_stage(record.stage, system);
+
+  if (out.flags.has(Flag::out_of_range)) {
+    out.discharge.reset();  // an implausible stage gives no discharge; the reading is still kept
+  } else if (out.depth <= 0.0) {
+    out.flags.set(Flag::below_zero_flow);
+    out.discharge = 0.0;
+  } else if (out.depth > site.top_depth) {
+    // Rare: the direct formula (vertical walls above an open section, a full pipe above a crown).
+    const HydraulicState state = site.channel->at_depth(out.depth);
+    out.flags |= state.flags;
+    out.discharge = state.discharge;
+  } else {
+    out.discharge = site.rating->discharge(out.depth);
+    if (site.supercritical->contains(out.depth)) out.flags.set(Flag::supercritical);
+  }
+
+  auto batch = this->batch();
+  if (!batch) return std::unexpected(batch.error());
+  auto inserted = (*batch)->insert(out);
+  if (!inserted) return std::unexpected(inserted.error());
+  auto& pending = state_->pending;
+  switch (inserted->outcome) {
+    case InsertOutcome::stored:
+      ++pending.stored;
+      ++state_->batch_readings;
+      for (auto flag_name : out.flags.names()) ++pending.flagged_by_flag[std::string(flag_name)];
+      break;
+    case InsertOutcome::duplicate:
+      ++pending.duplicates;
+      break;
+    case InsertOutcome::conflict: {
+      const std::string reason = fmt::format(
+          "conflict: {} at this time is already stored with stage {}; the stored value is kept",
+          record.site, inserted->stored_stage.value_or(0.0));
+      const std::string position = fmt::format("line {}", at.line);
+      auto kept = (*batch)->add_reject({at.source, position, at.raw, reason, state_->clock()});
+      if (!kept) return std::unexpected(kept.error());
+      ++pending.rejected;
+      ++pending.rejected_by_reason["conflict"];
+      break;
+    }
+  }
+  for (const auto& earlier : checked.earlier) {
+    auto added = (*batch)->add_flags(site.key, earlier.time_ms, earlier.flags);
+    if (!added) return std::unexpected(added.error());
+    if (*added) {
+      for (auto flag_name : earlier.flags.names())
+        ++pending.flagged_by_flag[std::string(flag_name)];
+    }
+  }
+  return {};
+}
+
+Result<void> Ingestor::reject(std::string_view kind, std::string_view reason,
+                              const SourcePosition& at) {
+  auto batch = this->batch();
+  if (!batch) return std::unexpected(batch.error());
+  const std::string position = fmt::format("line {}", at.line);
+  const std::string text = fmt::format("{}: {}", kind, reason);
+  auto kept = (*batch)->add_reject({at.source, position, at.raw, text, state_->clock()});
+  if (!kept) return std::unexpected(kept.error());
+  ++state_->pending.rejected;
+  ++state_->pending.rejected_by_reason[std::string(kind)];
+  ++state_->batch_readings;
+  return {};
+}
+
+Result<void> Ingestor::progress(std::string_view source_key, const IngestProgress& progress) {
+  auto batch = this->batch();
+  if (!batch) return std::unexpected(batch.error());
+  return (*batch)->set_progress(source_key, progress);
+}
+
+bool Ingestor::commit_due() const {
+  if (!state_->batch) return false;
+  return state_->batch_readings >= state_->options.max_batch_readings ||
+         state_->clock() - state_->batch_started_ms >= state_->options.max_batch_age_ms;
+}
+
+Result<void> Ingestor::commit() {
+  if (!state_->batch) return {};
+  auto committed = state_->batch->commit();
+  state_->batch.reset();
+  if (!committed) {
+    state_->pending = IngestCounts{};
+    return committed;
+  }
+  ++state_->pending.commits;
+  counts_.add(state_->pending);
+  state_->pending = IngestCounts{};
+  return {};
+}
+
+Result<void> Ingestor::reset() {
+  state_->batch.reset();  // rolls back
+  state_->pending = IngestCounts{};
+  for (auto& [id, site] : state_->sites) {
+    site->checker = SiteChecker(site->config->checks);
+    if (auto seeded = seed_checker(state_->store, site->key, site->checker); !seeded) {
+      return seeded;
+    }
+  }
+  return {};
+}
+
+Result<std::optional<IngestProgress>> Ingestor::stored_progress(std::string_view source_key) {
+  return state_->store.progress(source_key);
+}
+
+}  // namespace stagewell

@@ -1,0 +1,231 @@
+#include "stagewell/sqlite.hpp"
+
+#include <fmt/format.h>
+#include <sqlite3.h>
+
+namespace stagewell::sqlite {
+namespace {
+
+// Enough of a statement's SQL to recognise it in a message.
+std::string excerpt(std::string_view sql) {
+  constexpr std::size_t max_chars = 80;
+  std::string out;
+  for (char c : sql.substr(0, max_chars)) out += (c == '\n' || c == '\t') ? ' ' : c;
+  if (sql.size() > max_chars) out += "...";
+  return out;
+}
+
+}  // namespace
+
+Error to_error(int code, sqlite3* db, std::string_view doing) {
+  // After an injected fault (or a later call) the connection's message belongs to another code.
+  const bool own_message = db != nullptr && sqlite3_extended_errcode(db) == code;
+  const char* text = own_message ? sqlite3_errmsg(db) : sqlite3_errstr(code);
+  return Error{ErrorKind::database,
+               fmt::format("SQLite error while {}: {} (code {})", doing, text, code)};
+}
+
+bool is_busy(int code) { return (code & 0xff) == SQLITE_BUSY; }
+
+// ---- Statement ----
+
+Statement::Statement(Connection* connection, sqlite3_stmt* statement)
+    : connection_(connection), statement_(statement) {}
+
+Statement::Statement(Statement&& other) noexcept
+    : connection_(other.connection_),
+      statement_(std::exchange(other.statement_, nullptr)),
+      bind_error_(other.bind_error_) {}
+
+Statement& Statement::operator=(Statement&& other) noexcept {
+  if (this != &other) {
+    sqlite3_finalize(statement_);
+    connection_ = other.connection_;
+    statement_ = std::exchange(other.statement_, nullptr);
+    bind_error_ = other.bind_error_;
+  }
+  return *this;
+}
+
+Statement::~Statement() { sqlite3_finalize(statement_); }
+
+void Statement::bind(int index, std::int64_t value) {
+  const int rc = sqlite3_bind_int64(statement_, index, value);
+  if (bind_error_ == SQLITE_OK) bind_error_ = rc;
+}
+
+void Statement::bind(int index, double value) {
+  const int rc = sqlite3_bind_double(statement_, index, value);
+  if (bind_error_ == SQLITE_OK) bind_error_ = rc;
+}
+
+void Statement::bind(int index, std::string_view text) {
+  const int rc = sqlite3_bind_text64(statement_, index, text.data(), text.size(), SQLITE_TRANSIENT,
+                                     SQLITE_UTF8);
+  if (bind_error_ == SQLITE_OK) bind_error_ = rc;
+}
+
+void Statement::bind(int index, std::optional<double> value) {
+  if (value) {
+    bind(index, *value);
+  } else {
+    bind_null(index);
+  }
+}
+
+void Statement::bind_null(int index) {
+  const int rc = sqlite3_bind_null(statement_, index);
+  if (bind_error_ == SQLITE_OK) bind_error_ = rc;
+}
+
+int Statement::step_code() {
+  if (bind_error_ != SQLITE_OK) return bind_error_;
+  if (connection_->step_hook_) {
+    if (const auto injected = connection_->step_hook_(sql())) return *injected;
+  }
+  return sqlite3_step(statement_);
+}
+
+Result<bool> Statement::step() {
+  const int rc = step_code();
+  if (rc == SQLITE_ROW) return true;
+  if (rc == SQLITE_DONE) return false;
+  return std::unexpected(
+      to_error(rc, connection_->db_, fmt::format("running \"{}\"", excerpt(sql()))));
+}
+
+Result<void> Statement::run() {
+  for (;;) {
+    auto row = step();
+    if (!row) return std::unexpected(row.error());
+    if (!*row) return {};
+  }
+}
+
+void Statement::reset() {
+  sqlite3_reset(statement_);
+  sqlite3_clear_bindings(statement_);
+  bind_error_ = SQLITE_OK;
+}
+
+std::int64_t Statement::column_int64(int column) const {
+  return sqlite3_column_int64(statement_, column);
+}
+
+double Statement::column_double(int column) const {
+  return sqlite3_column_double(statement_, column);
+}
+
+std::optional<double> Statement::column_optional_double(int column) const {
+  if (column_is_null(column)) return std::nullopt;
+  return column_double(column);
+}
+
+std::string Statement::column_text(int column) const {
+  const auto* text = reinterpret_cast<const char*>(sqlite3_column_text(statement_, column));
+  if (text == nullptr) return {};
+  return std::string(text, static_cast<std::size_t>(sqlite3_column_bytes(statement_, column)));
+}
+
+bool Statement::column_is_null(int column) const {
+  return sqlite3_column_type(statement_, column) == SQLITE_NULL;
+}
+
+std::string_view Statement::sql() const {
+  const char* text = sqlite3_sql(statement_);
+  return text == nullptr ? std::string_view{} : std::string_view{text};
+}
+
+// ---- Connection ----
+
+Connection::Connection(sqlite3* db, std::filesystem::path path, Access access)
+    : db_(db), path_(std::move(path)), access_(access) {}
+
+Connection::~Connection() {
+  cache_.clear();  // every statement is finalized before the connection closes
+  sqlite3_close(db_);
+}
+
+Result<std::unique_ptr<Connection>> Connection::open(const std::filesystem::path& path,
+                                                     Access access) {
+  // NOMUTEX: one thread at a time (see the header), so SQLite's own locking is not needed.
+  // EXRESCODE: extended result codes, so messages say e.g. "SQLITE_IOERR_FSYNC", not "I/O error".
+  int flags = SQLITE_OPEN_NOMUTEX | SQLITE_OPEN_EXRESCODE;
+  flags |= access == Access::read_only ? SQLITE_OPEN_READONLY
+                                       : (SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE);
+  sqlite3* db = nullptr;
+  const int rc = sqlite3_open_v2(path.c_str(), &db, flags, nullptr);
+  if (rc != SQLITE_OK) {
+    Error error = to_error(rc, db, fmt::format("opening {}", path.string()));
+    sqlite3_close(db);  // a handle is returned even on failure
+    return std::unexpected(std::move(error));
+  }
+  return std::unique_ptr<Connection>(new Connection(db, path, access));
+}
+
+Result<Statement> Connection::prepare(std::string_view sql) {
+  sqlite3_stmt* statement = nullptr;
+  const int rc =
+      sqlite3_prepare_v2(db_, sql.data(), static_cast<int>(sql.size()), &statement, nullptr);
+  if (rc != SQLITE_OK) {
+    sqlite3_finalize(statement);
+    return std::unexpected(to_error(rc, db_, fmt::format("preparing \"{}\"", excerpt(sql))));
+  }
+  return Statement(this, statement);
+}
+
+Result<CachedStatement> Connection::cached(std::string_view sql) {
+  auto found = cache_.find(sql);
+  if (found == cache_.end()) {
+    auto statement = prepare(sql);
+    if (!statement) return std::unexpected(statement.error());
+    found =
+        cache_.emplace(std::string(sql), std::make_unique<Statement>(std::move(*statement))).first;
+  }
+  return CachedStatement(found->second.get());
+}
+
+Result<void> Connection::exec(std::string_view sql) {
+  const char* next = sql.data();
+  const char* const end = sql.data() + sql.size();
+  while (next < end) {
+    sqlite3_stmt* raw = nullptr;
+    const char* tail = nullptr;
+    const int rc = sqlite3_prepare_v2(db_, next, static_cast<int>(end - next), &raw, &tail);
+    if (rc != SQLITE_OK) {
+      sqlite3_finalize(raw);
+      return std::unexpected(to_error(
+          rc, db_,
+          fmt::format("preparing \"{}\"", excerpt({next, static_cast<size_t>(end - next)}))));
+    }
+    next = tail;
+    if (raw == nullptr) continue;  // only whitespace or a comment was left
+    Statement statement(this, raw);
+    if (auto done = statement.run(); !done) return done;
+  }
+  return {};
+}
+
+Result<std::int64_t> Connection::query_int64(std::string_view sql) {
+  auto statement = prepare(sql);
+  if (!statement) return std::unexpected(statement.error());
+  auto row = statement->step();
+  if (!row) return std::unexpected(row.error());
+  if (!*row) return fail(ErrorKind::database, fmt::format("\"{}\" returned no row", sql));
+  return statement->column_int64(0);
+}
+
+Result<std::string> Connection::query_text(std::string_view sql) {
+  auto statement = prepare(sql);
+  if (!statement) return std::unexpected(statement.error());
+  auto row = statement->step();
+  if (!row) return std::unexpected(row.error());
+  if (!*row) return fail(ErrorKind::database, fmt::format("\"{}\" returned no row", sql));
+  return statement->column_text(0);
+}
+
+std::int64_t Connection::changes() const { return sqlite3_changes64(db_); }
+
+bool Connection::in_transaction() const { return sqlite3_get_autocommit(db_) == 0; }
+
+}  // namespace stagewell::sqlite

@@ -1,0 +1,193 @@
+// The write transaction: readings, rejects and progress of one batch of input, all or nothing.
+#include <fmt/format.h>
+
+#include <cmath>
+
+#include "stagewell/store.hpp"
+#include "store/store_impl.hpp"
+
+namespace stagewell {
+namespace {
+
+bool is_continuation_byte(char c) { return (static_cast<unsigned char>(c) & 0xC0) == 0x80; }
+
+// The first max_reject_raw_bytes of `raw`, moved back to a UTF-8 character boundary so the kept
+// text stays valid UTF-8 (a character is at most 4 bytes: at most 3 continuation bytes to skip).
+std::string_view cut_raw_line(std::string_view raw) {
+  if (raw.size() <= max_reject_raw_bytes) return raw;
+  std::size_t end = max_reject_raw_bytes;
+  for (int i = 0; i < 3 && end > 0 && is_continuation_byte(raw[end]); ++i) --end;
+  return raw.substr(0, end);
+}
+
+Result<void> check_finite(const StoredReading& reading) {
+  const bool finite = std::isfinite(reading.stage) && std::isfinite(reading.depth) &&
+                      (!reading.discharge || std::isfinite(*reading.discharge));
+  if (finite) return {};
+  // SQLite would store NaN as NULL and infinities as values no view can explain.
+  return fail(ErrorKind::invalid_argument,
+              fmt::format("reading at {} ms has a stage, depth or discharge that is not a finite "
+                          "number; not stored",
+                          reading.time_ms));
+}
+
+Result<InsertResult> insert_reading(sqlite::Connection& connection, const StoredReading& reading) {
+  if (auto ok = check_finite(reading); !ok) return std::unexpected(ok.error());
+  {
+    auto insert = connection.cached(
+        "INSERT INTO readings (site_key, time_ms, stage, depth, discharge, flags, config_id) "
+        "VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7) ON CONFLICT (site_key, time_ms) DO NOTHING");
+    if (!insert) return std::unexpected(insert.error());
+    auto& s = **insert;
+    s.bind(1, reading.site.value);
+    s.bind(2, reading.time_ms);
+    s.bind(3, reading.stage);
+    s.bind(4, reading.depth);
+    s.bind(5, reading.discharge);
+    s.bind(6, static_cast<std::int64_t>(reading.flags.bits()));
+    s.bind(7, reading.config.value);
+    if (auto done = s.run(); !done) return std::unexpected(done.error());
+  }
+  if (connection.changes() == 1) return InsertResult{InsertOutcome::stored, std::nullopt};
+
+  // Already stored: the common case is a source read again after a crash (same stage).
+  auto select =
+      connection.cached("SELECT stage FROM readings WHERE site_key = ?1 AND time_ms = ?2");
+  if (!select) return std::unexpected(select.error());
+  (*select)->bind(1, reading.site.value);
+  (*select)->bind(2, reading.time_ms);
+  auto row = (*select)->step();
+  if (!row) return std::unexpected(row.error());
+  if (!*row) return fail(ErrorKind::database, "a reading was neither inserted nor found");
+  const double stored_stage = (*select)->column_double(0);
+  // Exact comparison: the same text parses to the same double, and SQLite stores REAL exactly.
+  const auto outcome =
+      stored_stage == reading.stage ? InsertOutcome::duplicate : InsertOutcome::conflict;
+  return InsertResult{outcome, stored_stage};
+}
+
+}  // namespace
+
+Result<WriteBatch> Store::begin() {
+  if (auto ok = impl_->require_writable("begin a write batch"); !ok) {
+    return std::unexpected(ok.error());
+  }
+  if (impl_->batch_open) {
+    return fail(ErrorKind::invalid_argument, "a write batch is already open on this store");
+  }
+  // A transaction left open by a ROLLBACK that itself failed: end it before starting anew.
+  if (impl_->connection->in_transaction()) {
+    if (auto ok = impl_->connection->exec("ROLLBACK"); !ok) return std::unexpected(ok.error());
+  }
+  // IMMEDIATE takes the write lock now. A deferred transaction that reads (the duplicate check)
+  // and then writes can fail half-way with a busy error no waiting can cure, when another
+  // connection wrote in between (SQLITE_BUSY_SNAPSHOT).
+  if (auto ok = impl_->run_retrying_busy("BEGIN IMMEDIATE"); !ok) {
+    return std::unexpected(ok.error());
+  }
+  impl_->batch_open = true;
+  return WriteBatch(impl_.get());
+}
+
+WriteBatch::WriteBatch(WriteBatch&& other) noexcept
+    : store_(std::exchange(other.store_, nullptr)), spoiled_(other.spoiled_) {}
+
+WriteBatch::~WriteBatch() { roll_back(); }
+
+Result<void> WriteBatch::check_usable() const {
+  if (store_ != nullptr) return {};
+  return fail(ErrorKind::invalid_argument,
+              "this write batch is finished (committed or rolled back)");
+}
+
+template <typename T>
+Result<T> WriteBatch::spoil_on_error(Result<T> result) {
+  if (!result) spoiled_ = true;
+  return result;
+}
+
+Result<InsertResult> WriteBatch::insert(const StoredReading& reading) {
+  if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
+  return spoil_on_error(insert_reading(*store_->connection, reading));
+}
+
+Result<bool> WriteBatch::add_flags(SiteKey site, std::int64_t time_ms, Flags flags) {
+  if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
+  auto& connection = *store_->connection;
+  auto update = connection.cached(
+      "UPDATE readings SET flags = flags | ?3 WHERE site_key = ?1 AND time_ms = ?2");
+  if (!update) return spoil_on_error(Result<bool>(std::unexpected(update.error())));
+  (*update)->bind(1, site.value);
+  (*update)->bind(2, time_ms);
+  (*update)->bind(3, static_cast<std::int64_t>(flags.bits()));
+  auto done = spoil_on_error((*update)->run());
+  if (!done) return std::unexpected(done.error());
+  return connection.changes() == 1;
+}
+
+Result<void> WriteBatch::add_reject(const Reject& reject) {
+  if (auto ok = check_usable(); !ok) return ok;
+  auto insert = store_->connection->cached(
+      "INSERT INTO rejected_lines (source, position, raw, raw_bytes, reason, received_ms) "
+      "VALUES (?1, ?2, ?3, ?4, ?5, ?6)");
+  if (!insert) return spoil_on_error(Result<void>(std::unexpected(insert.error())));
+  auto& s = **insert;
+  s.bind(1, reject.source);
+  s.bind(2, reject.position);
+  s.bind(3, cut_raw_line(reject.raw));
+  s.bind(4, static_cast<std::int64_t>(reject.raw.size()));
+  s.bind(5, reject.reason);
+  s.bind(6, reject.received_ms);
+  return spoil_on_error(s.run());
+}
+
+Result<void> WriteBatch::set_progress(std::string_view source, const IngestProgress& progress) {
+  if (auto ok = check_usable(); !ok) return ok;
+  if (progress.byte_offset < 0) {
+    return spoil_on_error(Result<void>(
+        fail(ErrorKind::invalid_argument,
+             fmt::format("negative byte offset {} for source {}", progress.byte_offset, source))));
+  }
+  auto upsert = store_->connection->cached(
+      "INSERT INTO ingest_progress (source, file_identity, byte_offset, updated_ms) "
+      "VALUES (?1, ?2, ?3, ?4) ON CONFLICT (source) DO UPDATE SET "
+      "file_identity = excluded.file_identity, byte_offset = excluded.byte_offset, "
+      "updated_ms = excluded.updated_ms");
+  if (!upsert) return spoil_on_error(Result<void>(std::unexpected(upsert.error())));
+  auto& s = **upsert;
+  s.bind(1, source);
+  s.bind(2, std::string_view(progress.file_identity));
+  s.bind(3, progress.byte_offset);
+  s.bind(4, progress.updated_ms);
+  return spoil_on_error(s.run());
+}
+
+Result<void> WriteBatch::commit() {
+  if (auto ok = check_usable(); !ok) return ok;
+  if (spoiled_) {
+    roll_back();
+    return fail(ErrorKind::invalid_argument,
+                "a write batch in which a call failed cannot be committed; it was rolled back");
+  }
+  auto committed = store_->run_retrying_busy("COMMIT");
+  if (!committed) {
+    roll_back();  // a COMMIT that failed for good leaves nothing of the batch behind
+    return committed;
+  }
+  store_->batch_open = false;
+  store_ = nullptr;
+  return {};
+}
+
+void WriteBatch::roll_back() {
+  if (store_ == nullptr) return;
+  auto& connection = *store_->connection;
+  if (connection.in_transaction()) {
+    // If even this fails, the transaction stays open and the next begin() ends it.
+    (void)connection.exec("ROLLBACK");
+  }
+  store_->batch_open = false;
+  store_ = nullptr;
+}
+
+}  // namespace stagewell

@@ -1,0 +1,214 @@
+// Readings: stored once, duplicates ignored, conflicts never replace, flags added later, and the
+// reads the service needs at start-up.
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <limits>
+
+#include "stagewell/store.hpp"
+#include "store_test_support.hpp"
+
+namespace stagewell {
+namespace {
+
+using test::query_int;
+using test::query_text;
+using test::raw_connection;
+using test::TempDir;
+
+TEST_CASE("a reading is stored once; the same reading again is a no-op") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  auto batch = store.begin();
+  REQUIRE(batch.has_value());
+  const auto first = batch->insert(test::reading(site, 60'000, 0.42));
+  REQUIRE(first.has_value());
+  CHECK(first->outcome == InsertOutcome::stored);
+  CHECK_FALSE(first->stored_stage.has_value());
+
+  // Same site, time and stage, even with other derived values: nothing changes.
+  auto again = test::reading(site, 60'000, 0.42);
+  again.depth = 9.0;
+  again.flags = Flag::late;
+  const auto second = batch->insert(again);
+  REQUIRE(second.has_value());
+  CHECK(second->outcome == InsertOutcome::duplicate);
+  CHECK(second->stored_stage == 0.42);
+  REQUIRE(batch->commit().has_value());
+
+  CHECK(store.count_readings() == 1);
+  auto raw = raw_connection(dir.db());
+  CHECK(query_int(*raw, "SELECT flags FROM readings") == 0);
+  CHECK(query_int(*raw, "SELECT depth < 1.0 FROM readings") == 1);  // not the second's 9.0
+}
+
+TEST_CASE("a different stage for a stored time is a conflict and replaces nothing") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  const auto other = test::add_site(store, "feeder-canal");
+  {
+    auto batch = store.begin();
+    REQUIRE(batch->insert(test::reading(site, 60'000, 0.42)).has_value());
+    REQUIRE(batch->commit().has_value());
+  }
+  auto batch = store.begin();
+  const auto result = batch->insert(test::reading(site, 60'000, 0.43));
+  REQUIRE(result.has_value());
+  CHECK(result->outcome == InsertOutcome::conflict);
+  CHECK(result->stored_stage == 0.42);
+  // The same time at another site is no conflict.
+  CHECK(batch->insert(test::reading(other, 60'000, 0.43))->outcome == InsertOutcome::stored);
+  REQUIRE(batch->commit().has_value());
+
+  auto raw = raw_connection(dir.db());
+  CHECK(query_text(*raw, "SELECT stage FROM discharge WHERE site = 'raceway-a'") == "0.42");
+  CHECK(store.count_readings() == 2);
+}
+
+TEST_CASE("flags are ORed into a stored reading; an unknown reading reports false") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  auto batch = store.begin();
+  auto gap = test::reading(site, 60'000, 0.42);
+  gap.flags = Flag::gap;
+  REQUIRE(batch->insert(gap).has_value());
+  CHECK(batch->add_flags(site.key, 60'000, Flag::spike) == true);
+  CHECK(batch->add_flags(site.key, 61'000, Flag::spike) == false);
+  REQUIRE(batch->commit().has_value());
+
+  auto raw = raw_connection(dir.db());
+  // gap = 1 << 8, spike = 1 << 5 (flags.hpp): 256 + 32.
+  CHECK(query_int(*raw, "SELECT flags FROM readings") == 288);
+}
+
+TEST_CASE("the last N readings at or before a time, oldest first, of one site only") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  const auto other = test::add_site(store, "feeder-canal");
+  {
+    auto batch = store.begin();
+    for (std::int64_t t = 1000; t <= 10'000; t += 1000) {
+      auto r = test::reading(site, t, static_cast<double>(t) / 1000.0);
+      if (t == 4000) {
+        r.discharge.reset();
+        r.flags = Flag::out_of_range;
+      }
+      REQUIRE(batch->insert(r)->outcome == InsertOutcome::stored);
+      REQUIRE(batch->insert(test::reading(other, t + 500, 7.0))->outcome == InsertOutcome::stored);
+    }
+    REQUIRE(batch->commit().has_value());
+  }
+  auto recent = store.recent_readings(site.key, 5500, 3);
+  REQUIRE(recent.has_value());
+  REQUIRE(recent->size() == 3);
+  CHECK((*recent)[0].time_ms == 3000);
+  CHECK((*recent)[1].time_ms == 4000);
+  CHECK((*recent)[2].time_ms == 5000);
+  CHECK((*recent)[2].stage == 5.0);
+  CHECK((*recent)[2].discharge == 10.0);
+  CHECK((*recent)[1].flags == Flags(Flag::out_of_range));
+  CHECK_FALSE((*recent)[1].discharge.has_value());
+  CHECK((*recent)[0].config == site.config);
+  CHECK((*recent)[0].site == site.key);
+  // At exactly a reading's time it is included; fewer readings than asked is fine.
+  auto early = store.recent_readings(site.key, 2000, 5);
+  REQUIRE(early.has_value());
+  REQUIRE(early->size() == 2);
+  CHECK(early->back().time_ms == 2000);
+  CHECK(store.recent_readings(site.key, 999, 5)->empty());
+
+  CHECK(store.count_readings() == 20);
+  CHECK(store.count_readings(site.key) == 10);
+}
+
+TEST_CASE("a reading that is not finite is refused and spoils the batch") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  auto batch = store.begin();
+  REQUIRE(batch->insert(test::reading(site, 1000, 0.5)).has_value());
+  auto bad = test::reading(site, 2000, 0.5);
+  bad.discharge = std::numeric_limits<double>::quiet_NaN();
+  auto result = batch->insert(bad);
+  REQUIRE_FALSE(result.has_value());
+  CHECK(result.error().kind == ErrorKind::invalid_argument);
+  // A batch with a failed call must not commit its other writes (or progress past the failure).
+  auto committed = batch->commit();
+  REQUIRE_FALSE(committed.has_value());
+  CHECK(store.count_readings() == 0);
+  // The store is usable again.
+  auto next = store.begin();
+  REQUIRE(next.has_value());
+  REQUIRE(next->insert(test::reading(site, 1000, 0.5)).has_value());
+  REQUIRE(next->commit().has_value());
+  CHECK(store.count_readings() == 1);
+}
+
+TEST_CASE("an uncommitted batch is rolled back; one batch at a time") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  {
+    auto batch = store.begin();
+    REQUIRE(batch.has_value());
+    CHECK_FALSE(store.begin().has_value());
+    CHECK_FALSE(store.ensure_site("feeder-canal").has_value());  // would join the batch
+    REQUIRE(batch->insert(test::reading(site, 1000, 0.5)).has_value());
+  }
+  CHECK(store.count_readings() == 0);
+  auto batch = store.begin();
+  REQUIRE(batch.has_value());
+  REQUIRE(batch->commit().has_value());
+  CHECK_FALSE(batch->commit().has_value());  // finished
+}
+
+TEST_CASE("a configuration version: same text, same id; its hash is FNV-1a 64") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto a = store.ensure_site("raceway-a");
+  const auto b = store.ensure_site("feeder-canal");
+  REQUIRE(a.has_value());
+  REQUIRE(b.has_value());
+  CHECK(*a != *b);
+  CHECK(store.ensure_site("raceway-a") == *a);
+
+  const std::string json = R"({"site":"raceway-a"})";
+  const auto first = store.record_config(*a, json, 1'700'000'000'000);
+  REQUIRE(first.has_value());
+  CHECK(store.record_config(*a, json, 1'800'000'000'000) == *first);
+  const auto changed =
+      store.record_config(*a, R"({"site":"raceway-a","n":0.013})", 1'800'000'000'000);
+  REQUIRE(changed.has_value());
+  CHECK(*changed != *first);
+  const auto other_site = store.record_config(*b, json, 1'800'000'000'000);
+  REQUIRE(other_site.has_value());
+  CHECK(*other_site != *first);
+
+  auto raw = raw_connection(dir.db());
+  // Reference: FNV-1a 64 computed with Debian's /usr/bin/python3 (offset basis 0xcbf29ce484222325,
+  // prime 0x100000001b3); the same code gives the published vectors "a" -> af63dc4c8601ec8c and
+  // "foobar" -> 85944171f73967e8 (from memory of the FNV test suite).
+  CHECK(query_text(*raw, "SELECT hash FROM config_versions WHERE config_id = " +
+                             std::to_string(first->value)) == "1f1ce2823b4d2b5a");
+  // The first recording's time is kept.
+  CHECK(query_int(*raw, "SELECT created_ms FROM config_versions WHERE config_id = " +
+                            std::to_string(first->value)) == 1'700'000'000'000);
+}
+
+TEST_CASE("a read-only store refuses to write") {
+  TempDir dir;
+  { test::open_store(dir.db()); }
+  auto reader = Store::open_read_only(dir.db());
+  REQUIRE(reader.has_value());
+  auto batch = reader->begin();
+  REQUIRE_FALSE(batch.has_value());
+  CHECK(batch.error().kind == ErrorKind::invalid_argument);
+  CHECK_FALSE(reader->ensure_site("raceway-a").has_value());
+}
+
+}  // namespace
+}  // namespace stagewell

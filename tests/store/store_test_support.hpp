@@ -1,0 +1,108 @@
+// Helpers shared by the store tests: a scratch directory, a site with a configuration, a second
+// raw connection for looking at the file from outside the store, and a "fail the Nth step" hook.
+#pragma once
+
+#include <doctest/doctest.h>
+#include <stdlib.h>
+
+#include <filesystem>
+#include <memory>
+#include <optional>
+#include <string>
+#include <string_view>
+
+#include "stagewell/sqlite.hpp"
+#include "stagewell/store.hpp"
+
+namespace stagewell::test {
+
+// A fresh directory under the system's temporary directory, removed with everything in it.
+class TempDir {
+ public:
+  TempDir() {
+    std::string pattern = (std::filesystem::temp_directory_path() / "stagewell-store-XXXXXX");
+    REQUIRE(mkdtemp(pattern.data()) != nullptr);
+    path_ = pattern;
+  }
+  ~TempDir() {
+    std::error_code ignored;
+    std::filesystem::remove_all(path_, ignored);
+  }
+  TempDir(const TempDir&) = delete;
+  TempDir& operator=(const TempDir&) = delete;
+  const std::filesystem::path& path() const { return path_; }
+  std::filesystem::path db() const { return path_ / "stagewell.db"; }
+
+ private:
+  std::filesystem::path path_;
+};
+
+inline Store open_store(const std::filesystem::path& path, const StoreOptions& options = {}) {
+  auto store = Store::open(path, options);
+  REQUIRE_MESSAGE(store.has_value(), store.error().message);
+  return std::move(*store);
+}
+
+// A site with one recorded configuration, ready for readings.
+struct Site {
+  SiteKey key;
+  ConfigVersionId config;
+};
+
+inline Site add_site(Store& store, std::string_view id) {
+  auto key = store.ensure_site(id);
+  REQUIRE_MESSAGE(key.has_value(), key.error().message);
+  const std::string json = "{\"id\":\"" + std::string(id) + "\"}";
+  auto config = store.record_config(*key, json, 1'700'000'000'000);
+  REQUIRE_MESSAGE(config.has_value(), config.error().message);
+  return Site{*key, *config};
+}
+
+inline StoredReading reading(const Site& site, std::int64_t time_ms, double stage) {
+  return StoredReading{.site = site.key,
+                       .time_ms = time_ms,
+                       .stage = stage,
+                       .depth = stage - 0.1,
+                       .discharge = stage * 2.0,
+                       .flags = Flags{},
+                       .config = site.config};
+}
+
+// A connection of its own to the database file, outside the store.
+inline std::unique_ptr<sqlite::Connection> raw_connection(
+    const std::filesystem::path& path,
+    sqlite::Connection::Access access = sqlite::Connection::Access::read_write_create) {
+  auto connection = sqlite::Connection::open(path, access);
+  REQUIRE_MESSAGE(connection.has_value(), connection.error().message);
+  return std::move(*connection);
+}
+
+inline std::int64_t query_int(sqlite::Connection& connection, std::string_view sql) {
+  auto value = connection.query_int64(sql);
+  REQUIRE_MESSAGE(value.has_value(), value.error().message);
+  return *value;
+}
+
+inline std::string query_text(sqlite::Connection& connection, std::string_view sql) {
+  auto value = connection.query_text(sql);
+  REQUIRE_MESSAGE(value.has_value(), value.error().message);
+  return *value;
+}
+
+// Makes the Nth sqlite3_step (counting from 1) on a connection fail with `code`; every other step
+// runs normally. Copies share the count.
+class FailNthStep {
+ public:
+  FailNthStep(int n, int code) : n_(n), code_(code), calls_(std::make_shared<int>(0)) {}
+  std::optional<int> operator()(std::string_view) const {
+    return ++*calls_ == n_ ? std::optional<int>(code_) : std::nullopt;
+  }
+  int calls() const { return *calls_; }
+
+ private:
+  int n_;
+  int code_;
+  std::shared_ptr<int> calls_;
+};
+
+}  // namespace stagewell::test
