@@ -82,6 +82,12 @@ class Ingestor {
   // Drops the open batch and restores the check state from the store (after a failed commit).
   Result<void> reset();
 
+  // Called after every commit attempt: true when the batch is stored, false when it was dropped
+  // (failed commit or reset()). A socket source acknowledges what it fed before a successful
+  // commit, and drops its connections after a failed one so that clients resend.
+  using CommitObserver = std::function<void(bool committed)>;
+  void add_commit_observer(CommitObserver observer);
+
   // Progress stored for a source (committed state).
   Result<std::optional<IngestProgress>> stored_progress(std::string_view source_key);
 

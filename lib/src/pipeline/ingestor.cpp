@@ -51,6 +51,11 @@ struct Ingestor::State {
   std::int64_t batch_started_ms = 0;
   std::int64_t batch_readings = 0;
   IngestCounts pending;  // counts of the open batch, added to the totals on commit
+  std::vector<CommitObserver> observers;
+
+  void notify(bool committed) {
+    for (const auto& observer : observers) observer(committed);
+  }
 
   State(Config c, IngestorOptions o, Clock k, Store s)
       : config(std::move(c)), options(o), clock(std::move(k)), store(std::move(s)) {}
@@ -224,17 +229,24 @@ Result<void> Ingestor::commit() {
   state_->batch.reset();
   if (!committed) {
     state_->pending = IngestCounts{};
+    state_->notify(false);
     return committed;
   }
   ++state_->pending.commits;
   counts_.add(state_->pending);
   state_->pending = IngestCounts{};
+  state_->notify(true);
   return {};
+}
+
+void Ingestor::add_commit_observer(CommitObserver observer) {
+  state_->observers.push_back(std::move(observer));
 }
 
 Result<void> Ingestor::reset() {
   state_->batch.reset();  // rolls back
   state_->pending = IngestCounts{};
+  state_->notify(false);
   for (auto& [id, site] : state_->sites) {
     site->checker = SiteChecker(site->config->checks);
     if (auto seeded = seed_checker(state_->store, site->key, site->checker); !seeded) {
