@@ -8,32 +8,12 @@
 #include <utility>
 #include <vector>
 
+#include "section_builders.hpp"
+
 using namespace stagewell;
+using namespace stagewell::testing;
 
 namespace {
-
-std::shared_ptr<const Channel> channel(const SectionSpec& spec, std::vector<double> roughness,
-                                       double slope, units::System system = units::System::metric) {
-  auto section = make_section(spec);
-  REQUIRE_MESSAGE(section.has_value(), section.error().message);
-  return std::make_shared<Channel>(std::shared_ptr<const Section>(std::move(*section)),
-                                   std::move(roughness), slope, system);
-}
-
-SectionSpec rectangle(double width, double height) {
-  SectionSpec spec;
-  spec.shape = Shape::rectangular;
-  spec.width = width;
-  spec.height = height;
-  return spec;
-}
-
-SectionSpec circle(double diameter) {
-  SectionSpec spec;
-  spec.shape = Shape::circular;
-  spec.diameter = diameter;
-  return spec;
-}
 
 // Manning's equation written out [C]: Q = (k/n) A R^(2/3) S^(1/2).
 double manning(double k, double n, double area, double perimeter, double slope) {

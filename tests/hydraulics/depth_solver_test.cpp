@@ -6,53 +6,13 @@
 #include <utility>
 #include <vector>
 
+#include "section_builders.hpp"
 #include "stagewell/channel.hpp"
 
 using namespace stagewell;
+using namespace stagewell::testing;
 
 namespace {
-
-std::shared_ptr<const Channel> channel(const SectionSpec& spec, std::vector<double> roughness,
-                                       double slope, units::System system = units::System::metric) {
-  auto section = make_section(spec);
-  REQUIRE_MESSAGE(section.has_value(), section.error().message);
-  return std::make_shared<Channel>(std::shared_ptr<const Section>(std::move(*section)),
-                                   std::move(roughness), slope, system);
-}
-
-SectionSpec rectangle(double width, double height) {
-  SectionSpec spec;
-  spec.shape = Shape::rectangular;
-  spec.width = width;
-  spec.height = height;
-  return spec;
-}
-
-SectionSpec triangle(double left, double right, double height) {
-  SectionSpec spec;
-  spec.shape = Shape::triangular;
-  spec.side_slope_left = left;
-  spec.side_slope_right = right;
-  spec.height = height;
-  return spec;
-}
-
-SectionSpec trapezoid(double bottom, double left, double right, double height) {
-  SectionSpec spec;
-  spec.shape = Shape::trapezoidal;
-  spec.width = bottom;
-  spec.side_slope_left = left;
-  spec.side_slope_right = right;
-  spec.height = height;
-  return spec;
-}
-
-SectionSpec circle(double diameter) {
-  SectionSpec spec;
-  spec.shape = Shape::circular;
-  spec.diameter = diameter;
-  return spec;
-}
 
 double value(const Result<double>& result) {
   REQUIRE_MESSAGE(result.has_value(), result.error().message);

@@ -11,19 +11,14 @@
 #include <utility>
 #include <vector>
 
+#include "section_builders.hpp"
+
 using namespace stagewell;
+using namespace stagewell::testing;
 
 namespace {
 
 constexpr double kBound = 1e-4;  // 0.01 %
-
-std::shared_ptr<const Channel> channel(const SectionSpec& spec, std::vector<double> roughness,
-                                       double slope) {
-  auto section = make_section(spec);
-  REQUIRE_MESSAGE(section.has_value(), section.error().message);
-  return std::make_shared<Channel>(std::shared_ptr<const Section>(std::move(*section)),
-                                   std::move(roughness), slope, units::System::metric);
-}
 
 // Manning's equation written out [C], k = 1.
 double manning(double n, double slope, double area, double perimeter) {

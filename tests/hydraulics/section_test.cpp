@@ -7,7 +7,10 @@
 #include <numbers>
 #include <string>
 
+#include "section_builders.hpp"
+
 using namespace stagewell;
+using namespace stagewell::testing;
 
 namespace {
 
@@ -15,23 +18,6 @@ std::unique_ptr<const Section> build(const SectionSpec& spec) {
   auto section = make_section(spec);
   REQUIRE_MESSAGE(section.has_value(), section.error().message);
   return std::move(*section);
-}
-
-SectionSpec trapezoid(double bottom, double left, double right, double height) {
-  SectionSpec spec;
-  spec.shape = Shape::trapezoidal;
-  spec.width = bottom;
-  spec.side_slope_left = left;
-  spec.side_slope_right = right;
-  spec.height = height;
-  return spec;
-}
-
-SectionSpec circle(double diameter) {
-  SectionSpec spec;
-  spec.shape = Shape::circular;
-  spec.diameter = diameter;
-  return spec;
 }
 
 // The error message for an invalid spec; fails the test if the spec is accepted.
