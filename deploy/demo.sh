@@ -1,22 +1,61 @@
 #!/usr/bin/env bash
-# One command from a fresh Debian 12 machine to the demo: installs what is missing (apt-get, needs
-# root or sudo), builds, and runs stagewell on the demo configuration (config/demo.yaml).
+# One command from a fresh Debian 12 machine to the running demo: installs what is missing
+# (apt-get, needs root or sudo), builds, and runs the service stagewelld on the demo configuration
+# (config/demo.yaml) with the demo's invented stage history and a live logger feed.
+# Stop it with Ctrl-C. DEMO_SECONDS=N stops it by itself after N seconds.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 deploy/setup.sh
 deploy/build.sh
+
 bin=build/daemon
 config=config/demo.yaml
+demo=var/demo
+database=$demo/stagewell.db
 
-echo
-echo "== stagewell check --config $config"
-"$bin/stagewell" check --config "$config"
-echo
-echo "== stagewell flow --config $config --site raceway-a --stage 0.45"
-"$bin/stagewell" flow --config "$config" --site raceway-a --stage 0.45
-echo
-echo "== stagewell depth --config $config --site feeder-canal --flow 1.5"
-"$bin/stagewell" depth --config "$config" --site feeder-canal --flow 1.5
-echo
-echo "== stagewell table --config $config --site storm-culvert"
-"$bin/stagewell" table --config "$config" --site storm-culvert
+# A fresh demo every time: the history files are dropped into the incoming folder, and a stand-in
+# logger appends one raceway reading every 5 seconds to the file the service follows.
+rm -rf "$demo"
+mkdir -p "$demo/incoming" "$demo/logger"
+cp config/demo-data/*.csv "$demo/incoming/"
+touch -d '-1 minute' "$demo"/incoming/*.csv   # settled: the service leaves files being written alone
+
+"$bin/stagewell" check --config "$config" >/dev/null
+
+feed_logger() {
+  local file=$demo/logger/raceway-a.csv
+  echo "time,stage" > "$file"
+  while true; do
+    # Local standard time (UTC-07:00, the source's time_zone), no offset written, like the logger.
+    printf '%s,0.%03d\n' "$(TZ=Etc/GMT+7 date +%Y-%m-%dT%H:%M:%S)" $((440 + RANDOM % 25)) >> "$file"
+    sleep 5
+  done
+}
+feed_logger &
+feeder=$!
+"$bin/stagewelld" --config "$config" &
+daemon=$!
+trap 'kill $feeder 2>/dev/null || true; kill -TERM $daemon 2>/dev/null || true; wait $daemon 2>/dev/null || true' EXIT
+trap 'exit 0' INT TERM
+
+sleep 3
+cat <<EOM
+
+== stagewelld is running on $config (pid $daemon); Ctrl-C stops it.
+   database:  $(realpath "$database")
+   log:       $(realpath "$demo")/stagewell.log
+   drop CSV files (site,time,stage) into $(realpath "$demo/incoming")
+
+   Try, in another terminal (read-only, while the service writes):
+     sqlite3 -readonly $database "SELECT site, count(*), round(max(discharge), 3) AS peak_m3_s FROM discharge GROUP BY site;"
+     sqlite3 -readonly $database "SELECT time, stage, discharge, flags FROM discharge WHERE site = 'raceway-a' ORDER BY unix_time DESC LIMIT 5;"
+     sqlite3 -readonly $database "SELECT position, reason FROM rejects;"
+     $bin/stagewell flow --config $config --site brindlewick-creek --stage 2.6
+
+   Discharge here is an estimate from Manning's equation: verify it with field measurements.
+EOM
+if [[ -n "${DEMO_SECONDS:-}" ]]; then
+  sleep "$DEMO_SECONDS"
+  exit 0
+fi
+wait $daemon
