@@ -84,7 +84,32 @@ void print_summary(const IngestCounts& counts, std::int64_t files) {
   }
 }
 
+// The signal that interrupted the run (SIGINT or SIGTERM), 0 while none has.
 volatile std::sig_atomic_t g_interrupted = 0;
+
+// First signal: finish the current chunk, commit, and stop. A second one ends the process at once
+// (signal() and raise() are async-signal-safe).
+void on_interrupt(int signal_number) {
+  if (g_interrupted != 0) {
+    std::signal(signal_number, SIG_DFL);
+    std::raise(signal_number);
+    return;
+  }
+  g_interrupted = signal_number;
+}
+
+// After SIGINT or SIGTERM: commit what was read, summarise, and exit with 128 + the signal's
+// number (the shell's convention for a process ended by a signal: 130 for Ctrl-C).
+int stop_interrupted(Ingestor& ingestor, std::int64_t files) {
+  if (auto committed = ingestor.commit(); !committed) {
+    std::cerr << "interrupted; the last commit failed (" << committed.error().message
+              << "); run again to resume from the commit before it\n";
+  } else {
+    std::cerr << "interrupted; committed what was read; run again to resume\n";
+  }
+  print_summary(ingestor.counts(), files);
+  return 128 + static_cast<int>(g_interrupted);
+}
 
 int run_ingest(const IngestOptions& options) {
   auto config = load_config_or_report(options.config_path);
@@ -113,8 +138,8 @@ int run_ingest(const IngestOptions& options) {
     return kInvalidInput;
   }
   // SIGINT or SIGTERM: stop after the current chunk and commit, so the next run resumes.
-  std::signal(SIGINT, [](int) { g_interrupted = 1; });
-  std::signal(SIGTERM, [](int) { g_interrupted = 1; });
+  std::signal(SIGINT, on_interrupt);
+  std::signal(SIGTERM, on_interrupt);
 
   ProgressDisplay display(options.quiet);
   int exit_code = kOk;
@@ -134,7 +159,11 @@ int run_ingest(const IngestOptions& options) {
       exit_code = kInvalidInput;
       continue;
     }
-    if ((*reader)->done_bytes() > 0) {
+    if ((*reader)->done_bytes() > 0 && (*reader)->done_bytes() >= (*reader)->size_bytes()) {
+      std::cerr << fmt::format("{}: already read to its end by an earlier run (--again reads it "
+                               "again)\n",
+                               path);
+    } else if ((*reader)->done_bytes() > 0) {
       std::cerr << fmt::format("{}: resuming at byte {} of {} (--again reads it from the start)\n",
                                path, (*reader)->done_bytes(), (*reader)->size_bytes());
     }
@@ -154,16 +183,16 @@ int run_ingest(const IngestOptions& options) {
       display.update(fs::path(path).filename().string(), (*reader)->done_bytes(),
                      (*reader)->size_bytes(), (*ingestor)->counts().stored);
       if (*finished) break;
-      if (g_interrupted) {
-        (void)(*ingestor)->commit();
+      if (g_interrupted != 0) {
         display.end_line();
-        std::cerr << "interrupted; committed what was read; run again to resume\n";
-        print_summary((*ingestor)->counts(), files);
-        return kInvalidInput;
+        return stop_interrupted(**ingestor, files);
       }
     }
     display.end_line();
     ++files;
+    if (g_interrupted != 0 && &path != &options.paths.back()) {
+      return stop_interrupted(**ingestor, files);
+    }
   }
   print_summary((*ingestor)->counts(), files);
   return exit_code;
@@ -188,7 +217,9 @@ void add_ingest_command(CLI::App& program, Action& chosen) {
   command->add_flag("-q,--quiet", options->quiet, "No progress display");
   command->footer(
       "Readings already stored (same site, time and stage) are ignored; a different stage for a "
-      "stored time is kept in rejects as a conflict. Exit status 1 if any file could not be read.");
+      "stored time is kept in rejects as a conflict. Exit status 1 if any file could not be read; "
+      "130 (143) when interrupted by SIGINT (SIGTERM) after committing what was read: run again "
+      "to resume.");
   command->final_callback(
       [&chosen, options] { chosen = [options] { return run_ingest(*options); }; });
 }

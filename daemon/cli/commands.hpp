@@ -13,5 +13,9 @@ void add_flow_command(CLI::App& program, Action& chosen);
 void add_depth_command(CLI::App& program, Action& chosen);
 void add_table_command(CLI::App& program, Action& chosen);
 void add_ingest_command(CLI::App& program, Action& chosen);
+void add_daily_command(CLI::App& program, Action& chosen);
+void add_stats_command(CLI::App& program, Action& chosen);
+void add_plot_command(CLI::App& program, Action& chosen);
+void add_send_command(CLI::App& program, Action& chosen);
 
 }  // namespace stagewell::cli

@@ -21,6 +21,10 @@ int main(int argc, char** argv) {
   add_depth_command(program, chosen);
   add_table_command(program, chosen);
   add_ingest_command(program, chosen);
+  add_daily_command(program, chosen);
+  add_stats_command(program, chosen);
+  add_plot_command(program, chosen);
+  add_send_command(program, chosen);
 
   try {
     program.parse(argc, argv);

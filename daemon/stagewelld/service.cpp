@@ -110,11 +110,21 @@ bool Service::open(const Config& config) {
     if (spec.type == SourceSpec::Type::directory) {
       sources_.push_back(std::make_unique<Source>(
           Source{DropFolder(spec, *ingestor_), "folder " + spec.path.string()}));
-    } else {
+    } else if (spec.type == SourceSpec::Type::tail) {
       sources_.push_back(std::make_unique<Source>(
           Source{TailedFile(spec, *ingestor_), "tail " + spec.path.string()}));
     }
   }
+  // ---- tcp sources (issue 5): listeners on this io_context; see tcp_listener.hpp ----
+  tcp_.reset();
+  auto tcp = TcpSources::open(io_, *ingestor_,
+                              {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
+  if (!tcp) {
+    spdlog::error("{}", tcp.error().message);
+    return false;
+  }
+  tcp_ = std::move(*tcp);
+  // ---- end of tcp sources ----
   const auto& loaded = ingestor_->config();
   std::string site_ids;
   for (const auto& site : loaded.sites) site_ids += (site_ids.empty() ? "" : ", ") + site.id;
@@ -124,7 +134,9 @@ bool Service::open(const Config& config) {
       STAGEWELL_VERSION, loaded.sites.size(), site_ids, sources_.size(), loaded.database.string(),
       ingestor_->store().schema_version(), units::name(loaded.units));
   for (const auto& source : sources_) spdlog::info("source: {}", source->label);
-  if (sources_.empty()) spdlog::warn("no sources configured: nothing will be read");
+  if (sources_.empty() && tcp_->size() == 0) {  // tcp_: issue 5
+    spdlog::warn("no sources configured: nothing will be read");
+  }
   return true;
 }
 
@@ -161,7 +173,10 @@ void Service::poll() {
     }
     more = more || *polled;
   }
-  if (ingestor_->commit_due()) {
+  // Commit when the batch is full or old, and also as soon as the sources have nothing more
+  // waiting: a live reading is then visible at once, while a large file is still read in full
+  // batches.
+  if (ingestor_->commit_due() || !more) {
     if (auto committed = ingestor_->commit(); !committed) {
       recover(committed.error());
       return;
@@ -190,6 +205,13 @@ void Service::recover(const Error& error) {
   });
 }
 
+// tcp sources (issue 5): commit as soon as the batch is due rather than at the next poll (up to
+// kIdlePoll later), so that clients are acknowledged within the batch age.
+void Service::commit_if_due() {
+  if (stopping_ || !ingestor_ || !ingestor_->commit_due()) return;
+  if (auto committed = ingestor_->commit(); !committed) recover(committed.error());
+}
+
 void Service::wait_for_signal() {
   signals_.async_wait([this](const boost::system::error_code& error, int signal_number) {
     if (error) return;  // cancelled at shutdown
@@ -215,6 +237,7 @@ void Service::on_signal(int signal_number) {
 void Service::shut_down() {
   stopping_ = true;
   poll_timer_.cancel();
+  if (tcp_) tcp_->stop();  // tcp sources (issue 5): read no more; close once acknowledged
   if (ingestor_) {
     if (auto committed = ingestor_->commit(); !committed) {
       spdlog::error("final commit failed: {}; that input will be read again at the next start",
@@ -246,6 +269,7 @@ void Service::reload() {
   auto old_sources = std::move(sources_);
   sources_.clear();
   old_sources.clear();
+  tcp_.reset();  // tcp sources (issue 5): closes their connections before the Ingestor goes
   old_ingestor.reset();  // closes the database before it is opened again
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
   if (!open(*config)) {

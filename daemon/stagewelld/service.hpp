@@ -17,6 +17,7 @@
 #include "logging.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
+#include "tcp_listener.hpp"  // tcp sources (issue 5)
 
 namespace stagewell::service {
 
@@ -40,6 +41,7 @@ class Service {
   void on_signal(int signal_number);
   void reload();
   void shut_down();
+  void commit_if_due();  // tcp sources (issue 5): acknowledge within the batch age
 
   boost::asio::io_context& io_;
   std::string config_path_;
@@ -48,6 +50,7 @@ class Service {
   boost::asio::steady_timer poll_timer_;
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
+  std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first
   bool stopping_ = false;
   bool poll_posted_ = false;
   int exit_code_ = 0;

@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "stagewell/channel.hpp"
+#include "stagewell/flags.hpp"
 #include "stagewell/section.hpp"
 #include "stagewell/units.hpp"
 
@@ -68,10 +69,26 @@ struct ColumnNames {
   std::string stage = "stage";
 };
 
+// A `type: tcp` source: a listener taking CSV lines from gateways and loggers over TCP, each
+// acknowledged once stored (protocol: README, "Readings over TCP"). Limits bound what one client
+// can make the service hold.
+struct TcpSpec {
+  std::string address = "127.0.0.1";   // IP address to listen on, as written (IPv4 or IPv6)
+  int port = 7207;                      // TCP port, 1 to 65535
+  bool loopback = true;                 // address is 127.0.0.0/8 or ::1
+  std::optional<std::string> secret;    // clients send it first; required unless loopback
+  std::size_t max_line_bytes = 4096;    // longest line, bytes, without its line ending
+  int max_clients = 64;                 // connections at once; more are refused
+  double idle_timeout_s = 300.0;        // nothing moving either way this long: closed
+  double auth_timeout_s = 10.0;         // no `auth` line this long after connecting: refused
+  std::size_t max_reply_bytes = 65536;  // replies a client leaves unread, bytes, before it is closed
+};
+
 // A place readings come from.
 struct SourceSpec {
-  enum class Type { directory, tail };
+  enum class Type { directory, tail, tcp };
   Type type = Type::directory;
+  TcpSpec tcp;  // type tcp only (path is then empty)
   std::filesystem::path path;       // absolute after loading
   std::optional<std::string> site;  // every reading belongs to this site (no site column)
   ColumnNames columns;
@@ -84,6 +101,20 @@ struct LogSpec {
   std::string level = "info";                 // trace | debug | info | warn | error
 };
 
+// How the daily figures (README, "Daily figures") treat flagged readings, and where the water
+// year starts. A flag in neither set is included: its reading's discharge is used as is.
+//   excluded  the reading is dropped and the time around it, back to the previous and on to the
+//             next used reading, counts as missing.
+//   bridged   the reading is dropped and its neighbours are joined across it (when they are no
+//             more than max_gap apart).
+// A reading with two flags takes the stronger treatment: excluded, then bridged, then included.
+// A reading without discharge (out_of_range) is never used: it is excluded unless bridged.
+struct DailySpec {
+  int water_year_start_month = 10;  // 1 = January ... 12 = December; October by default
+  Flags excluded = Flag::out_of_range;
+  Flags bridged = Flag::spike;
+};
+
 struct Config {
   std::filesystem::path file;  // the file it was read from (absolute), or parse_config's name
   units::System units = units::System::metric;
@@ -92,6 +123,7 @@ struct Config {
   std::vector<SiteConfig> sites;
   std::vector<SourceSpec> sources;
   LogSpec log;
+  DailySpec daily;
 
   const SiteConfig* find_site(std::string_view id) const;  // nullptr when unknown
 };

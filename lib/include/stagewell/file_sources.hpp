@@ -101,27 +101,51 @@ class DropFolder {
   std::int64_t files_done_ = 0;
 };
 
+// How long a rotated-away file must stay unchanged before it counts as finished (ms): a logger
+// goes on writing to it until it reopens its path.
+inline constexpr std::int64_t kRotatedQuietMs = 2000;
+
 // A file a logger keeps appending to.
+//
+// Truncation: when the file is shorter than what was read, or the last bytes read are no longer
+// where they were (the file was truncated and rewritten longer between two polls), it is read
+// again from the start. Rotation: when the path names another file, or none, the old file is
+// still read until it has been unchanged for kRotatedQuietMs, its last line counting even without
+// a newline; then the file at the path is read from its start. Restart: the stored progress names
+// the file (device:inode) and offset; if the path now names another file, a file with the stored
+// identity in the same directory (rotated while the service was stopped) is read to its end first.
+// Not noticed: a file truncated and rewritten to at least its old length while stopped.
 class TailedFile {
  public:
   TailedFile(SourceSpec spec, Ingestor& ingestor);
 
-  // One poll: notices truncation (the file is shorter than what was read: read again from the
-  // start) and rotation (the path now names another file: the old one is read to its end first),
-  // then reads up to `max_bytes` of new lines. Returns true when more is waiting.
+  // One poll: notices truncation and rotation, then reads up to `max_bytes` of new lines.
+  // Returns true when more is waiting.
   Result<bool> poll(std::size_t max_bytes);
   void reset();
 
  private:
+  // Opens the file at the path (or, when `resume` finds one, the rotated file the stored
+  // progress belongs to) and skips what is already stored.
   Result<void> start(bool resume);
+  Result<void> open_at(FileHandle file, const std::filesystem::path& path, std::int64_t offset);
+  // True when the bytes before offset_ are not the ones read (truncated or rewritten).
+  Result<bool> rewritten(std::int64_t size_bytes);
+  // The rotated file is finished: its last line is processed and the path is followed anew.
+  Result<void> finish_rotated();
 
   SourceSpec spec_;
   std::string source_key_;
   Ingestor& ingestor_;
   FileHandle file_;
+  std::filesystem::path file_path_;  // where file_ was opened (the path, or a rotated name)
   std::string identity_;
   std::unique_ptr<StreamReader> reader_;
   std::int64_t offset_ = 0;  // bytes of the file fed to reader_
+  std::string last_bytes_;   // the last bytes fed (at most 64): to notice a rewrite
+  // Set once the path no longer names file_: when file_ last grew (or rotation was noticed), ms.
+  std::optional<std::int64_t> rotated_quiet_since_ms_;
+  bool rotated_searched_ = false;  // start() looked for a rotated file since the last reset()
   bool missing_logged_ = false;
 };
 

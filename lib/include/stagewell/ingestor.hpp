@@ -41,6 +41,9 @@ struct IngestorOptions {
   std::int64_t max_batch_readings = 20000;
   std::int64_t max_batch_age_ms = 1000;
   StoreOptions store;
+  // Keep the daily figures current in each batch's transaction (daily_keeper.hpp). Off only to
+  // measure what keeping them costs (tests/bench); the figures are then stale.
+  bool keep_daily = true;
 };
 
 // Milliseconds since the epoch; injectable so tests control "now" (the `future` check).
@@ -76,6 +79,9 @@ class Ingestor {
 
   // True when the open batch should be committed now (size or age).
   bool commit_due() const;
+  // True while a batch is open. When none is, everything fed so far is settled: committed, or a
+  // repeat of a stored reading that needed no batch (a socket source acknowledges it then).
+  bool batch_open() const;
   // Commits the open batch, if any. On failure nothing of it is stored; the caller must re-read
   // every source from its stored progress (reset()).
   Result<void> commit();
@@ -101,6 +107,9 @@ class Ingestor {
   struct State;
   explicit Ingestor(std::unique_ptr<State> state);
   Result<WriteBatch*> batch();
+  // A record whose (site, time) is stored with `stored_stage`: a no-op when the stage is the
+  // same, a 'conflict' reject when not (stored values are never replaced).
+  Result<void> repeat(const Record& record, double stored_stage, const SourcePosition& at);
 
   std::unique_ptr<State> state_;
   IngestCounts counts_;

@@ -66,6 +66,8 @@ class Statement {
   Result<void> run();
   // Ready to run again: resets and clears the bindings.
   void reset();
+  // Ready to run again with the same bindings (for a caller that binds every parameter anyway).
+  void rewind();
 
   std::int64_t column_int64(int column) const;
   double column_double(int column) const;
@@ -88,20 +90,31 @@ class Statement {
 // statement keeps a read transaction open after its caller is done with it.
 class CachedStatement {
  public:
-  explicit CachedStatement(Statement* statement) : statement_(statement) {}
+  // Bindings to keep: `keep` only rewinds the statement when the loan ends (Statement::rewind),
+  // for a per-reading statement whose caller binds every parameter each time.
+  enum class Bindings { clear, keep };
+
+  explicit CachedStatement(Statement* statement, Bindings bindings = Bindings::clear)
+      : statement_(statement), bindings_(bindings) {}
   CachedStatement(CachedStatement&& other) noexcept
-      : statement_(std::exchange(other.statement_, nullptr)) {}
+      : statement_(std::exchange(other.statement_, nullptr)), bindings_(other.bindings_) {}
   CachedStatement(const CachedStatement&) = delete;
   CachedStatement& operator=(const CachedStatement&) = delete;
   CachedStatement& operator=(CachedStatement&&) = delete;
   ~CachedStatement() {
-    if (statement_ != nullptr) statement_->reset();
+    if (statement_ == nullptr) return;
+    if (bindings_ == Bindings::keep) {
+      statement_->rewind();
+    } else {
+      statement_->reset();
+    }
   }
   Statement* operator->() const { return statement_; }
   Statement& operator*() const { return *statement_; }
 
  private:
   Statement* statement_;
+  Bindings bindings_;
 };
 
 class Connection {

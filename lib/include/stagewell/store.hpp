@@ -140,8 +140,17 @@ class Store {
   Result<std::int64_t> count_readings();
   Result<std::int64_t> count_readings(SiteKey site);
 
+  // The stage stored for `site` at `time_ms`, empty when there is none. Sees the writes of the
+  // batch open on this store, if any (one connection): the ingest path uses it to settle a repeat
+  // of a stored (site, time) before the reading reaches the site's checks.
+  Result<std::optional<double>> stored_stage(SiteKey site, std::int64_t time_ms);
+
   // For tests: called before every sqlite3_step (see sqlite::StepHook) to inject faults.
   void set_step_hook_for_testing(sqlite::StepHook hook);
+
+  // The store's connection, for modules that keep their own tables in the same file (the daily
+  // figures). Reads only: writes go through a WriteBatch's connection().
+  sqlite::Connection& connection();
 
  private:
   friend class WriteBatch;
@@ -178,6 +187,11 @@ class WriteBatch {
   // Commits everything, retrying while another connection holds the lock (StoreOptions). On
   // failure nothing of the batch is stored. Either way the batch is finished.
   Result<void> commit();
+
+  // The connection the batch's transaction is open on, for modules that write their own tables
+  // in the same transaction (the daily figures). A failure there must end in no commit().
+  // REQUIRES: the batch is not finished.
+  sqlite::Connection& connection();
 
  private:
   friend class Store;

@@ -1,11 +1,13 @@
 // Reads one stream of CSV readings — a file from some offset, a tailed file, a socket — into an
-// Ingestor: bytes -> lines -> records or rejects. Holds at most one line of bytes.
+// Ingestor: bytes -> lines -> records or rejects. Holds at most one line of bytes (two for a line
+// over the limit: see consumed_bytes()).
 //
 // Not thread-safe: one per stream.
 #pragma once
 
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -29,12 +31,16 @@ class StreamReader {
   // End of the stream: a last line without a newline is processed too.
   Result<void> finish();
   // Reads `chunk` for its header and line count only, storing nothing: for resuming a stream at a
-  // stored offset, so that the header is known and line numbers stay right.
+  // stored offset (a consumed_bytes() value), so that the header is known and line numbers stay
+  // right. When the offset includes a last line without a newline (finish() processed it), a
+  // finish() with nothing fed after the skip does not process that line again.
   void skip(std::string_view chunk);
 
   // Bytes of the stream whose lines have been completely processed (fed or skipped): the offset to
-  // store as progress.
-  std::int64_t consumed_bytes() const { return fed_bytes_ - splitter_.pending_bytes(); }
+  // store as progress. Always the end of a line: through its '\n', or the end of the stream after
+  // finish(). A line over the limit is held back whole — its reject is made only when its end
+  // arrives — so that a restart never resumes inside a line nor repeats the reject of one.
+  std::int64_t consumed_bytes() const { return consumed_bytes_; }
   std::int64_t lines() const { return lines_; }
   const std::string& source_name() const { return source_name_; }
 
@@ -42,14 +48,28 @@ class StreamReader {
   StreamReader(std::string source_name, Ingestor& ingestor, RecordParser parser,
                std::size_t max_line_bytes);
   void on_line(const Line& line);
+  void process(const Line& line);
+  // Counts the line ends in `chunk` (just fed or skipped) and moves consumed_bytes_ past the last.
+  void note_line_ends(std::string_view chunk);
+  void release_held();
+
+  // A line over the limit whose end has not arrived yet: its first max_line_bytes bytes.
+  struct HeldLine {
+    std::string text;
+    std::int64_t number = 0;
+  };
 
   std::string source_name_;
   Ingestor& ingestor_;
   RecordParser parser_;
   LineSplitter splitter_;
-  std::int64_t fed_bytes_ = 0;
+  std::int64_t fed_bytes_ = 0;       // fed or skipped
+  std::int64_t consumed_bytes_ = 0;  // see consumed_bytes()
+  std::int64_t line_ends_ = 0;       // '\n' bytes fed or skipped: line N ends at the N-th
   std::int64_t lines_ = 0;
+  std::optional<HeldLine> held_;
   bool skipping_ = false;
+  bool skipped_to_line_end_ = true;  // false: the skip stopped after a line finish() processed
   Result<void> status_;  // the first store failure, sticky
 };
 

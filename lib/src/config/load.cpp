@@ -13,6 +13,38 @@ namespace {
 
 using namespace config_detail;
 
+// `daily.flagged`: one optional key per flag name, include | exclude | bridge (config.hpp,
+// DailySpec). Unknown flag names are errors like any unknown key.
+void read_flag_treatments(const At& at, Context& cx, DailySpec& out) {
+  std::vector<Key<DailySpec>> keys;
+  for (const Flag flag : all_flags()) {
+    keys.push_back({name(flag), optional(), [flag](const At& value, Context& c, DailySpec& spec) {
+                      const auto choice = one_of({"include", "exclude", "bridge"})(value, c);
+                      if (!choice) return;
+                      if (flag == Flag::out_of_range && *choice == "include") {
+                        c.error(value, "out_of_range readings have no discharge to include: "
+                                       "write exclude or bridge");
+                        return;
+                      }
+                      spec.excluded.clear(flag);
+                      spec.bridged.clear(flag);
+                      if (*choice == "exclude") spec.excluded.set(flag);
+                      if (*choice == "bridge") spec.bridged.set(flag);
+                    }});
+  }
+  read_map(at, keys, cx, out);
+}
+
+// `daily:`: the water year and the treatment of flagged readings in the daily figures.
+void read_daily(const At& at, Context& cx, Config& config) {
+  static const std::vector<Key<DailySpec>> keys{
+      {"water_year_start", defaults("10"),
+       into(whole_number(1, 12), &DailySpec::water_year_start_month)},
+      {"flagged", defaults("{}"), read_flag_treatments},
+  };
+  read_map(at, keys, cx, config.daily);
+}
+
 const std::vector<Key<Config>>& top_keys() {
   // Table order is reading order: `units` before `sites` (a site's stage units default to the
   // system's length unit), `sites` before `sources` (a source may name a site). `units` has no
@@ -25,6 +57,7 @@ const std::vector<Key<Config>>& top_keys() {
        [](const At& at, Context& cx, Config& config) { read_log(at, cx, config.log); }},
       {"sites", required(), read_sites},
       {"sources", defaults("[]"), read_sources},
+      {"daily", defaults("{}"), read_daily},
   };
   return keys;
 }

@@ -3,6 +3,7 @@
 
 #include "config/key_table.hpp"
 #include "config/readers.hpp"
+#include "config/tcp_source_keys.hpp"
 #include "config/value_readers.hpp"
 
 namespace stagewell::config_detail {
@@ -10,10 +11,22 @@ namespace {
 
 Read<SourceSpec::Type> source_type() {
   return [](const At& at, Context& cx) -> std::optional<SourceSpec::Type> {
-    const auto name = one_of({"directory", "tail"})(at, cx);
+    const auto name = one_of({"directory", "tail", "tcp"})(at, cx);
     if (!name) return std::nullopt;
+    if (*name == "tcp") return SourceSpec::Type::tcp;
     return *name == "directory" ? SourceSpec::Type::directory : SourceSpec::Type::tail;
   };
+}
+
+// The type written for a source, when it can be read: which keys apply depends on it.
+std::optional<SourceSpec::Type> written_type(const At& entry) {
+  const auto written = find(entry, "type");
+  if (!written || !written->node.IsScalar()) return std::nullopt;
+  const std::string& name = written->node.Scalar();
+  if (name == "directory") return SourceSpec::Type::directory;
+  if (name == "tail") return SourceSpec::Type::tail;
+  if (name == "tcp") return SourceSpec::Type::tcp;
+  return std::nullopt;
 }
 
 const std::vector<Key<ColumnNames>>& column_keys() {
@@ -48,15 +61,26 @@ void read_columns(const At& at, Context& cx, SourceSpec& out) {
   }
 }
 
-const std::vector<Key<SourceSpec>>& source_keys() {
+// The rows of a source of `type`: a tcp source has no path, a file source none of the tcp keys
+// (tcp_source_keys.cpp). When the type cannot be read, those keys are checked for spelling only.
+std::vector<Key<SourceSpec>> source_keys(std::optional<SourceSpec::Type> type) {
+  const bool tcp = type == SourceSpec::Type::tcp;
+  const auto presence = [&](bool used, Presence when_used, std::string_view users) {
+    if (!type) return ignored();
+    return used ? when_used : not_here(fmt::format("not used by this type of source ({})", users));
+  };
   // `site` before `columns`: read_columns needs to know whether the source names its site.
-  static const std::vector<Key<SourceSpec>> keys{
+  std::vector<Key<SourceSpec>> keys{
       {"type", required(), into(source_type(), &SourceSpec::type)},
-      {"path", required(), into(file_path(), &SourceSpec::path)},
+      {"path", presence(!tcp, required(), "only by directory and tail; tcp listens instead"),
+       into(file_path(), &SourceSpec::path)},
       {"site", optional(), into(identifier(), &SourceSpec::site)},
       {"columns", defaults("{}"), read_columns},
       {"time_zone", optional(), into(time_zone(), &SourceSpec::time_zone)},
   };
+  for (const auto& key : tcp_source_keys()) {
+    keys.push_back({key.name, presence(tcp, key.presence, "only by tcp"), key.store});
+  }
   return keys;
 }
 
@@ -110,7 +134,9 @@ void read_sources(const At& at, Context& cx, Config& config) {
     const At entry = element(at, i);
     const std::size_t before = cx.error_count();
     SourceSpec source;
-    read_map(entry, source_keys(), cx, source);
+    const auto type = written_type(entry);
+    read_map(entry, source_keys(type), cx, source);
+    if (type == SourceSpec::Type::tcp) check_tcp_source(entry, cx, source);
     if (source.site && !config.find_site(*source.site)) {
       if (const auto site = find(entry, "site")) {
         cx.error(*site, "no site has this id; the sites are: " + site_ids(config));
@@ -122,6 +148,7 @@ void read_sources(const At& at, Context& cx, Config& config) {
     index_of.push_back(i);
   }
   check_paths(at, cx, config.sources, index_of);
+  check_listeners(at, cx, config.sources, index_of);
 }
 
 void read_log(const At& at, Context& cx, LogSpec& out) {

@@ -123,13 +123,15 @@ Result<std::int64_t> parse_timestamp(std::string_view text, const TimeZone* loca
   if (*minute > 59) return bad("minute " + two(*minute) + " is not 00-59");
   if (second == 60) return bad("leap seconds (:60) are not accepted");
   if (second > 59) return bad("second " + two(second) + " is not 00-59");
-  // cctz normalises out-of-range fields (Feb 30 -> Mar 2), so a day that changes is a day that
-  // does not exist.
-  const cctz::civil_second civil(*year, *month, *day, *hour, *minute, second);
-  if (civil.day() != *day) {
+  // The proleptic Gregorian calendar of <chrono>: ok() is false for a day the month does not have.
+  const std::chrono::year_month_day date{std::chrono::year(*year),
+                                         std::chrono::month(static_cast<unsigned>(*month)),
+                                         std::chrono::day(static_cast<unsigned>(*day))};
+  if (!date.ok()) {
     return bad("day " + two(*day) + " does not exist in " + std::to_string(*year) + "-" +
                two(*month));
   }
+  const std::int64_t time_of_day_s = (*hour * 60 + *minute) * 60 + second;
 
   std::int64_t seconds = 0;
   if (in.done()) {
@@ -138,6 +140,7 @@ Result<std::int64_t> parse_timestamp(std::string_view text, const TimeZone* loca
                   "timestamp has no UTC offset and the source has no time_zone; write it with Z "
                   "or an offset such as -07:00, or set time_zone for the source");
     }
+    const cctz::civil_second civil(*year, *month, *day, *hour, *minute, second);
     const auto lookup = local_zone->cctz_zone().lookup(civil);
     if (lookup.kind == cctz::time_zone::civil_lookup::SKIPPED) {
       return fail(ErrorKind::parse, "local time does not exist in " + local_zone->name() +
@@ -155,8 +158,10 @@ Result<std::int64_t> parse_timestamp(std::string_view text, const TimeZone* loca
     if (!in.done()) {
       return bad("unexpected text '" + std::string(in.rest()) + "' after the UTC offset");
     }
-    const auto as_utc = cctz::convert(civil, cctz::utc_time_zone());
-    seconds = as_utc.time_since_epoch().count() - *offset_s;
+    // With an offset no zone rules are needed: days since the epoch, then the time of day. (The
+    // hot path of ingest: cheaper than a cctz conversion through the UTC zone.)
+    const std::int64_t days = std::chrono::sys_days(date).time_since_epoch().count();
+    seconds = days * 86'400 + time_of_day_s - *offset_s;
   }
   return seconds * 1000 + millis;
 }

@@ -241,45 +241,154 @@ Result<bool> DropFolder::poll(std::size_t max_bytes) {
 
 // ---- TailedFile -------------------------------------------------------------------------------
 
+namespace {
+
+// Bytes kept from the end of what was read, to notice a file rewritten under us.
+constexpr std::size_t kLastBytesKept = 64;
+
+void keep_last_bytes(std::string& kept, std::string_view chunk) {
+  if (chunk.size() >= kLastBytesKept) {
+    kept.assign(chunk.substr(chunk.size() - kLastBytesKept));
+    return;
+  }
+  kept.append(chunk);
+  if (kept.size() > kLastBytesKept) kept.erase(0, kept.size() - kLastBytesKept);
+}
+
+// Reads up to `size` bytes at `offset` without moving the file position; fewer at the end.
+Result<std::string> read_at(const FileHandle& file, std::int64_t offset, std::size_t size,
+                            const fs::path& path) {
+  std::string out(size, '\0');
+  std::size_t got = 0;
+  while (got < size) {
+    const ssize_t n = ::pread(file.fd(), out.data() + got, size - got,
+                              static_cast<off_t>(offset + static_cast<std::int64_t>(got)));
+    if (n < 0 && errno == EINTR) continue;
+    if (n < 0) return os_error("cannot read", path);
+    if (n == 0) break;
+    got += static_cast<std::size_t>(n);
+  }
+  out.resize(got);
+  return out;
+}
+
+// A regular file in `directory` whose identity (device:inode) is `identity`.
+std::optional<fs::path> find_by_identity(const fs::path& directory, std::string_view identity) {
+  std::error_code error;
+  for (fs::directory_iterator it(directory, error), end; !error && it != end; it.increment(error)) {
+    struct stat status {};
+    if (::stat(it->path().c_str(), &status) != 0 || !S_ISREG(status.st_mode)) continue;
+    if (identity_of(status) == identity) return it->path();
+  }
+  return std::nullopt;
+}
+
+}  // namespace
+
 TailedFile::TailedFile(SourceSpec spec, Ingestor& ingestor)
     : spec_(std::move(spec)), source_key_(absolute_key("tail", spec_.path)), ingestor_(ingestor) {}
 
 void TailedFile::reset() {
   file_ = FileHandle();
+  file_path_.clear();
+  identity_.clear();
   reader_.reset();
   offset_ = 0;
+  last_bytes_.clear();
+  rotated_quiet_since_ms_.reset();
+  rotated_searched_ = false;
+}
+
+Result<void> TailedFile::open_at(FileHandle file, const fs::path& path, std::int64_t offset) {
+  auto reader = StreamReader::create(spec_, path.string(), ingestor_);
+  if (!reader) return std::unexpected(reader.error());
+  if (auto skipped = skip_prefix(file, offset, **reader, path); !skipped) return skipped;
+  auto identity = file_identity(file);
+  if (!identity) return std::unexpected(identity.error());
+  const auto kept = std::min<std::int64_t>(offset, kLastBytesKept);
+  auto last = read_at(file, offset - kept, static_cast<std::size_t>(kept), path);
+  if (!last) return std::unexpected(last.error());
+  file_ = std::move(file);
+  file_path_ = path;
+  identity_ = std::move(*identity);
+  reader_ = std::move(*reader);
+  offset_ = offset;
+  last_bytes_ = std::move(*last);
+  return {};
 }
 
 Result<void> TailedFile::start(bool resume) {
+  std::optional<IngestProgress> stored;
+  if (resume) {
+    auto progress = ingestor_.stored_progress(source_key_);
+    if (!progress) return std::unexpected(progress.error());
+    stored = *progress;
+  }
   auto file = FileHandle::open_read(spec_.path);
-  if (!file) {
-    if (file.error().kind == ErrorKind::not_found) {
-      if (!missing_logged_) spdlog::info("{}: not there yet; waiting for it", spec_.path.string());
-      missing_logged_ = true;
-      return {};
+  if (!file && file.error().kind != ErrorKind::not_found) return std::unexpected(file.error());
+  struct stat status {};
+  std::string at_path;  // identity of the file at the path; empty when there is none
+  if (file) {
+    if (::fstat(file->fd(), &status) != 0) return os_error("cannot stat", spec_.path);
+    at_path = identity_of(status);
+  }
+
+  if (stored && !stored->file_identity.empty() && stored->file_identity != at_path &&
+      !rotated_searched_) {
+    // The file being read was rotated while nobody watched (the service was stopped, or its
+    // batch failed): if it is still beside the path, read the rest of it first. Searched once
+    // per start: while the path is missing, start() runs at every poll.
+    rotated_searched_ = true;
+    if (auto rotated = find_by_identity(spec_.path.parent_path(), stored->file_identity)) {
+      auto old = FileHandle::open_read(*rotated);
+      struct stat old_status {};
+      if (old && ::fstat(old->fd(), &old_status) == 0 &&
+          stored->byte_offset <= old_status.st_size) {
+        if (auto opened = open_at(std::move(*old), *rotated, stored->byte_offset); !opened) {
+          return opened;
+        }
+        rotated_quiet_since_ms_ = ingestor_.now_ms();
+        spdlog::info("{}: rotated to {} before it was read to its end; reading it from byte {}",
+                     spec_.path.string(), rotated->string(), stored->byte_offset);
+        return {};
+      }
     }
-    return std::unexpected(file.error());
+  }
+
+  if (!file) {
+    if (!missing_logged_) spdlog::info("{}: not there yet; waiting for it", spec_.path.string());
+    missing_logged_ = true;
+    return {};
   }
   missing_logged_ = false;
-  struct stat status {};
-  if (::fstat(file->fd(), &status) != 0) return os_error("cannot stat", spec_.path);
-  auto reader = StreamReader::create(spec_, spec_.path.string(), ingestor_);
-  if (!reader) return std::unexpected(reader.error());
   std::int64_t offset = 0;
-  if (resume) {
-    auto stored = ingestor_.stored_progress(source_key_);
-    if (!stored) return std::unexpected(stored.error());
-    if (*stored && (*stored)->file_identity == identity_of(status) &&
-        (*stored)->byte_offset <= status.st_size) {
-      offset = (*stored)->byte_offset;
-    }
+  if (stored && stored->file_identity == at_path && stored->byte_offset <= status.st_size) {
+    offset = stored->byte_offset;
   }
-  if (auto skipped = skip_prefix(*file, offset, **reader, spec_.path); !skipped) return skipped;
-  file_ = std::move(*file);
-  identity_ = identity_of(status);
-  reader_ = std::move(*reader);
-  offset_ = offset;
+  if (auto opened = open_at(std::move(*file), spec_.path, offset); !opened) return opened;
   spdlog::info("{}: following from byte {}", spec_.path.string(), offset);
+  return {};
+}
+
+Result<bool> TailedFile::rewritten(std::int64_t size_bytes) {
+  if (size_bytes < offset_) return true;
+  if (last_bytes_.empty()) return false;
+  const auto kept = static_cast<std::int64_t>(last_bytes_.size());
+  auto now = read_at(file_, offset_ - kept, last_bytes_.size(), file_path_);
+  if (!now) return std::unexpected(now.error());
+  return *now != last_bytes_;
+}
+
+Result<void> TailedFile::finish_rotated() {
+  // Nothing more will be appended to it: its last line counts even without a newline.
+  if (auto last = reader_->finish(); !last) return last;
+  // Done with it. The progress now belongs to whatever the path names, read from its start.
+  if (auto saved = ingestor_.progress(source_key_, {"", 0, ingestor_.now_ms()}); !saved) {
+    return saved;
+  }
+  spdlog::info("{}: the rotated file {} is read to its end ({} lines); following the path anew",
+               spec_.path.string(), file_path_.string(), reader_->lines());
+  reset();
   return {};
 }
 
@@ -289,26 +398,32 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
     if (!file_) return false;
   }
   struct stat status {};
-  if (::fstat(file_.fd(), &status) != 0) return os_error("cannot stat", spec_.path);
-  if (status.st_size < offset_) {
-    spdlog::warn("{}: truncated from {} to {} bytes; reading again from the start",
-                 spec_.path.string(), offset_, static_cast<std::int64_t>(status.st_size));
-    reset();
-    if (auto started = start(/*resume=*/false); !started) return std::unexpected(started.error());
-    if (!file_) return false;
+  if (::fstat(file_.fd(), &status) != 0) return os_error("cannot stat", file_path_);
+  if (!rotated_quiet_since_ms_) {
+    auto changed = rewritten(status.st_size);
+    if (!changed) return std::unexpected(changed.error());
+    if (*changed) {
+      spdlog::warn("{}: truncated or rewritten ({} bytes now, {} were read); reading it again "
+                   "from the start",
+                   spec_.path.string(), static_cast<std::int64_t>(status.st_size), offset_);
+      reset();
+      if (auto started = start(/*resume=*/false); !started) return std::unexpected(started.error());
+      if (!file_) return false;
+    }
   }
 
   std::vector<char> buffer(std::min(max_bytes, kReadChunkBytes));
   std::size_t done = 0;
   bool at_end = false;
   while (done < max_bytes) {
-    auto n = read_some(file_, buffer.data(), std::min(buffer.size(), max_bytes - done), spec_.path);
+    auto n = read_some(file_, buffer.data(), std::min(buffer.size(), max_bytes - done), file_path_);
     if (!n) return std::unexpected(n.error());
     if (*n == 0) {
       at_end = true;
       break;
     }
     if (auto fed = reader_->feed({buffer.data(), *n}); !fed) return std::unexpected(fed.error());
+    keep_last_bytes(last_bytes_, {buffer.data(), *n});
     done += *n;
     offset_ += static_cast<std::int64_t>(*n);
   }
@@ -319,15 +434,25 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
   }
   if (!at_end) return true;
 
-  // At the end of what we have: has the logger moved on to a new file at our path?
+  // At the end of what we have: does the path still name this file?
   auto now_at_path = file_identity(spec_.path);
-  if (now_at_path && *now_at_path == identity_) return false;
-  // Rotated (renamed away, or removed): the old file is read to its end; its last line counts
-  // even without a newline, since nothing more will be appended to it.
-  if (auto last = reader_->finish(); !last) return std::unexpected(last.error());
-  spdlog::info("{}: rotated; the old file is read to its end, now following the new one",
-               spec_.path.string());
-  reset();
+  if (now_at_path && *now_at_path == identity_) {
+    rotated_quiet_since_ms_.reset();  // (renamed back)
+    return false;
+  }
+  // Rotated (renamed away, replaced or removed). The logger may write to the old file until it
+  // reopens the path, so the old file is read on until it has been unchanged for a while.
+  const auto now = ingestor_.now_ms();
+  if (!rotated_quiet_since_ms_) {
+    spdlog::info("{}: rotated; reading the old file until it is unchanged for {} ms",
+                 spec_.path.string(), kRotatedQuietMs);
+  }
+  if (!rotated_quiet_since_ms_ || done > 0) {
+    rotated_quiet_since_ms_ = now;
+    return false;
+  }
+  if (now - *rotated_quiet_since_ms_ < kRotatedQuietMs) return false;
+  if (auto finished = finish_rotated(); !finished) return std::unexpected(finished.error());
   return true;
 }
 

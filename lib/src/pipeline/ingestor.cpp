@@ -2,11 +2,14 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
+#include <cmath>
 #include <unordered_map>
 #include <vector>
 
 #include "site_json.hpp"
 #include "stagewell/checks.hpp"
+#include "stagewell/daily_keeper.hpp"
 #include "stagewell/rating.hpp"
 #include "supercritical.hpp"
 
@@ -16,6 +19,13 @@ namespace {
 // Readings restored into each site's checks at start-up: the check window, and for flatline every
 // reading back to the flatline duration (bounded so a 1-second logger cannot make start-up slow).
 constexpr std::size_t kSeedReadings = 4096;
+
+// Sites are looked up twice per reading by a string_view into the line: a transparent hash finds
+// them without building a std::string (which allocates for an id longer than 15 characters).
+struct SiteIdHash {
+  using is_transparent = void;
+  std::size_t operator()(std::string_view id) const { return std::hash<std::string_view>{}(id); }
+};
 
 }  // namespace
 
@@ -37,6 +47,11 @@ struct Ingestor::Site {
   SiteKey key;
   ConfigVersionId version;
   double top_depth = 0.0;  // length unit of the configuration
+  // Time of the newest stored reading not flagged future, ms. A later reading cannot repeat a
+  // stored one, so only readings at or before it need the store's look-up. (Future readings are
+  // left out so that one wrong year does not put every later reading through the look-up; their
+  // repeats are still caught by the insert, and future readings change no check state.)
+  std::optional<std::int64_t> newest_ms;
 
   explicit Site(const SiteConfig& site) : config(&site), checker(site.checks) {}
 };
@@ -46,12 +61,13 @@ struct Ingestor::State {
   IngestorOptions options;
   Clock clock;
   Store store;
-  std::unordered_map<std::string, std::unique_ptr<Site>> sites;
+  std::unordered_map<std::string, std::unique_ptr<Site>, SiteIdHash, std::equal_to<>> sites;
   std::optional<WriteBatch> batch;
   std::int64_t batch_started_ms = 0;
   std::int64_t batch_readings = 0;
   IngestCounts pending;  // counts of the open batch, added to the totals on commit
   std::vector<CommitObserver> observers;
+  std::optional<daily::DailyKeeper> daily;  // empty when options.keep_daily is off
 
   void notify(bool committed) {
     for (const auto& observer : observers) observer(committed);
@@ -63,7 +79,14 @@ struct Ingestor::State {
 
 namespace {
 
-Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker) {
+// The opposite of the out_of_range check (checks.hpp): min_stage <= stage <= max_stage.
+bool within_stage_range(const ChecksSpec& checks, double stage) {
+  return !(checks.min_stage && stage < *checks.min_stage) &&
+         !(checks.max_stage && stage > *checks.max_stage);
+}
+
+Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker,
+                          std::optional<std::int64_t>& newest_ms) {
   auto stored = store.recent_readings(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
   if (!stored) return std::unexpected(stored.error());
   std::vector<PastReading> past;
@@ -72,6 +95,8 @@ Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker) {
     if (reading.flags.has(Flag::future)) continue;
     past.push_back({reading.time_ms, reading.stage});
   }
+  newest_ms.reset();
+  if (!past.empty()) newest_ms = past.back().time_ms;  // oldest first
   checker.seed(past);
   return {};
 }
@@ -84,6 +109,11 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
   if (!store) return std::unexpected(store.error());
   auto state = std::make_unique<State>(config, options, std::move(clock), std::move(*store));
   const auto now = state->clock();
+  if (options.keep_daily) {
+    auto keeper = daily::DailyKeeper::create(state->config);
+    if (!keeper) return std::unexpected(keeper.error());
+    state->daily.emplace(std::move(*keeper));
+  }
   for (const auto& site_config : state->config.sites) {
     auto site = std::make_unique<Site>(site_config);
     site->channel = make_channel(site_config, state->config.units);
@@ -97,8 +127,15 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
         state->store.record_config(*key, site_config_json(site_config, state->config.units), now);
     if (!version) return std::unexpected(version.error());
     site->version = *version;
-    if (auto seeded = seed_checker(state->store, site->key, site->checker); !seeded) {
+    if (auto seeded = seed_checker(state->store, site->key, site->checker, site->newest_ms);
+        !seeded) {
       return std::unexpected(seeded.error());
+    }
+    // Daily figures: recomputes the site's stored figures if they were made with other settings.
+    if (state->daily) {
+      if (auto added = state->daily->add_site(state->store, site->key, site_config); !added) {
+        return std::unexpected(added.error());
+      }
     }
     state->sites.emplace(site_config.id, std::move(site));
   }
@@ -113,7 +150,7 @@ Store& Ingestor::store() { return state_->store; }
 std::int64_t Ingestor::now_ms() const { return state_->clock(); }
 
 bool Ingestor::has_site(std::string_view site_id) const {
-  return state_->sites.find(std::string(site_id)) != state_->sites.end();
+  return state_->sites.find(site_id) != state_->sites.end();
 }
 
 Result<WriteBatch*> Ingestor::batch() {
@@ -128,13 +165,37 @@ Result<WriteBatch*> Ingestor::batch() {
 }
 
 Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
-  const auto found = state_->sites.find(std::string(record.site));
+  const auto found = state_->sites.find(record.site);
   if (found == state_->sites.end()) {
     // The record parser checks sites; this guards callers that skip it.
     return fail(ErrorKind::not_found, fmt::format("unknown site '{}'", record.site));
   }
   Site& site = *found->second;
   const auto system = state_->config.units;
+
+  // A repeat of a stored (site, time) is settled before the checks: a line read again after a
+  // restart, or a second stage for a stored time, must not enter the site's check state, where it
+  // would be a phantom neighbour (a false spike on the stored reading, a false unsteady on the
+  // next). Readings in time order are later than everything stored and skip the look-up.
+  if (site.newest_ms && record.time_ms <= *site.newest_ms) {
+    auto stored_stage = state_->store.stored_stage(site.key, record.time_ms);
+    if (!stored_stage) return std::unexpected(stored_stage.error());
+    if (*stored_stage) return repeat(record, **stored_stage, at);
+  }
+
+  // A stage so large that its depth, or the discharge it would get, is not a finite number cannot
+  // be stored, and the failed insert would spoil the whole batch (re-read, failing again, forever):
+  // it is rejected before it reaches the checks. Only a reading inside the site's stage range gets
+  // a discharge, and below the section's top the rating's discharges are finite.
+  if (const double depth = site.config->depth_for_stage(record.stage, system);
+      !std::isfinite(depth) || (within_stage_range(site.config->checks, record.stage) &&
+                                depth > site.top_depth &&
+                                !std::isfinite(site.channel->discharge(depth)))) {
+    return reject("non_finite_stage",
+                  fmt::format("stage {} gives a depth or discharge too large to be a number",
+                              record.stage),
+                  at);
+  }
 
   const CheckResult checked = site.checker.check(record.time_ms, record.stage, state_->clock());
   StoredReading out;
@@ -169,22 +230,17 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
     case InsertOutcome::stored:
       ++pending.stored;
       ++state_->batch_readings;
+      if (!out.flags.has(Flag::future)) {
+        site.newest_ms = std::max(site.newest_ms.value_or(out.time_ms), out.time_ms);
+      }
+      if (state_->daily) state_->daily->stored(site.key, {out.time_ms, out.discharge, out.flags});
       for (auto flag_name : out.flags.names()) ++pending.flagged_by_flag[std::string(flag_name)];
       break;
     case InsertOutcome::duplicate:
-      ++pending.duplicates;
+    case InsertOutcome::conflict:
+      // Settled before the checks above; reached only if newest_ms missed a stored reading.
+      if (auto kept = repeat(record, inserted->stored_stage.value_or(0.0), at); !kept) return kept;
       break;
-    case InsertOutcome::conflict: {
-      const std::string reason = fmt::format(
-          "conflict: {} at this time is already stored with stage {}; the stored value is kept",
-          record.site, inserted->stored_stage.value_or(0.0));
-      const std::string position = fmt::format("line {}", at.line);
-      auto kept = (*batch)->add_reject({at.source, position, at.raw, reason, state_->clock()});
-      if (!kept) return std::unexpected(kept.error());
-      ++pending.rejected;
-      ++pending.rejected_by_reason["conflict"];
-      break;
-    }
   }
   for (const auto& earlier : checked.earlier) {
     auto added = (*batch)->add_flags(site.key, earlier.time_ms, earlier.flags);
@@ -192,8 +248,29 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
     if (*added) {
       for (auto flag_name : earlier.flags.names())
         ++pending.flagged_by_flag[std::string(flag_name)];
+      if (state_->daily) state_->daily->flagged(site.key, earlier.time_ms, earlier.flags);
     }
   }
+  return {};
+}
+
+Result<void> Ingestor::repeat(const Record& record, double stored_stage, const SourcePosition& at) {
+  auto& pending = state_->pending;
+  // Exact comparison: the same text parses to the same double, and SQLite keeps REAL exactly.
+  if (stored_stage == record.stage) {
+    ++pending.duplicates;  // a re-read line: nothing to do
+    return {};
+  }
+  auto batch = this->batch();
+  if (!batch) return std::unexpected(batch.error());
+  const std::string reason = fmt::format(
+      "conflict: {} at this time is already stored with stage {}; the stored value is kept",
+      record.site, stored_stage);
+  const std::string position = fmt::format("line {}", at.line);
+  auto kept = (*batch)->add_reject({at.source, position, at.raw, reason, state_->clock()});
+  if (!kept) return std::unexpected(kept.error());
+  ++pending.rejected;
+  ++pending.rejected_by_reason["conflict"];
   return {};
 }
 
@@ -217,6 +294,8 @@ Result<void> Ingestor::progress(std::string_view source_key, const IngestProgres
   return (*batch)->set_progress(source_key, progress);
 }
 
+bool Ingestor::batch_open() const { return state_->batch.has_value(); }
+
 bool Ingestor::commit_due() const {
   if (!state_->batch) return false;
   return state_->batch_readings >= state_->options.max_batch_readings ||
@@ -225,9 +304,20 @@ bool Ingestor::commit_due() const {
 
 Result<void> Ingestor::commit() {
   if (!state_->batch) return {};
+  // Daily figures: recompute the (site, local day)s this batch's readings touched, inside its
+  // transaction, so the figures are committed with the readings or not at all.
+  if (state_->daily) {
+    if (auto updated = state_->daily->update(state_->batch->connection()); !updated) {
+      state_->batch.reset();  // rolls back
+      state_->pending = IngestCounts{};
+      state_->notify(false);
+      return updated;
+    }
+  }
   auto committed = state_->batch->commit();
   state_->batch.reset();
   if (!committed) {
+    if (state_->daily) state_->daily->forget();
     state_->pending = IngestCounts{};
     state_->notify(false);
     return committed;
@@ -245,11 +335,13 @@ void Ingestor::add_commit_observer(CommitObserver observer) {
 
 Result<void> Ingestor::reset() {
   state_->batch.reset();  // rolls back
+  if (state_->daily) state_->daily->forget();
   state_->pending = IngestCounts{};
   state_->notify(false);
   for (auto& [id, site] : state_->sites) {
     site->checker = SiteChecker(site->config->checks);
-    if (auto seeded = seed_checker(state_->store, site->key, site->checker); !seeded) {
+    if (auto seeded = seed_checker(state_->store, site->key, site->checker, site->newest_ms);
+        !seeded) {
       return seeded;
     }
   }

@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <variant>
 
 namespace stagewell {
@@ -25,13 +26,24 @@ StreamReader::StreamReader(std::string source_name, Ingestor& ingestor, RecordPa
       splitter_(max_line_bytes) {}
 
 Result<void> StreamReader::feed(std::string_view chunk) {
+  if (chunk.empty()) return status_;
+  skipped_to_line_end_ = true;  // the stream goes on: whatever the skip ended in continues
   fed_bytes_ += static_cast<std::int64_t>(chunk.size());
   splitter_.feed(chunk, [this](const Line& line) { on_line(line); });
+  note_line_ends(chunk);
+  // A held line whose end came in this chunk, with no later line after it to release it.
+  if (held_ && line_ends_ >= held_->number) release_held();
   return status_;
 }
 
 Result<void> StreamReader::finish() {
+  // After a skip that ended past a last line without a newline, that line was processed by the
+  // finish() of an earlier run (its bytes are in the stored offset): only count it.
+  skipping_ = !skipped_to_line_end_;
   splitter_.finish([this](const Line& line) { on_line(line); });
+  skipping_ = false;
+  if (held_) release_held();  // the end of the stream ends a held line too
+  consumed_bytes_ = fed_bytes_;
   return status_;
 }
 
@@ -39,13 +51,41 @@ void StreamReader::skip(std::string_view chunk) {
   skipping_ = true;
   fed_bytes_ += static_cast<std::int64_t>(chunk.size());
   splitter_.feed(chunk, [this](const Line& line) { on_line(line); });
+  note_line_ends(chunk);
   skipping_ = false;
+  skipped_to_line_end_ = splitter_.pending_bytes() == 0;
+}
+
+void StreamReader::note_line_ends(std::string_view chunk) {
+  const auto ends = std::count(chunk.begin(), chunk.end(), '\n');
+  if (ends == 0) return;
+  line_ends_ += ends;
+  const auto after_last = static_cast<std::int64_t>(chunk.size() - (chunk.rfind('\n') + 1));
+  consumed_bytes_ = fed_bytes_ - after_last;
+}
+
+void StreamReader::release_held() {
+  const HeldLine held = std::move(*held_);
+  held_.reset();
+  process(Line{held.text, held.number, /*too_long=*/true});
 }
 
 void StreamReader::on_line(const Line& line) {
+  if (held_ && line.number > held_->number) release_held();  // a later line: the held one ended
   ++lines_;
   if (!status_) return;  // the batch is spoiled: nothing more can be stored until a reset
   if (skipping_ && parser_.columns()) return;  // already past the header: just count
+  if (line.too_long && !skipping_) {
+    // Reported as soon as it is known to be too long, which is before its end has arrived: its
+    // reject waits for the end, so that it is stored with the progress past the whole line.
+    held_ = HeldLine{std::string(line.text), line.number};
+    return;
+  }
+  process(line);
+}
+
+void StreamReader::process(const Line& line) {
+  if (!status_) return;
   const ParsedLine parsed = parser_.parse_line(line);
   if (skipping_) return;
   const SourcePosition at{source_name_, line.number, line.text};

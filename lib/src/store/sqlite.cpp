@@ -108,6 +108,11 @@ void Statement::reset() {
   bind_error_ = SQLITE_OK;
 }
 
+void Statement::rewind() {
+  sqlite3_reset(statement_);
+  bind_error_ = SQLITE_OK;
+}
+
 std::int64_t Statement::column_int64(int column) const {
   return sqlite3_column_int64(statement_, column);
 }

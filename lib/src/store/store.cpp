@@ -183,9 +183,23 @@ Result<std::int64_t> Store::count_readings(SiteKey site) {
   return single_count(std::move(*select));
 }
 
+Result<std::optional<double>> Store::stored_stage(SiteKey site, std::int64_t time_ms) {
+  auto select =
+      impl_->connection->cached("SELECT stage FROM readings WHERE site_key = ?1 AND time_ms = ?2");
+  if (!select) return std::unexpected(select.error());
+  (*select)->bind(1, site.value);
+  (*select)->bind(2, time_ms);
+  auto row = (*select)->step();
+  if (!row) return std::unexpected(row.error());
+  if (!*row) return std::optional<double>{};
+  return std::optional<double>((*select)->column_double(0));
+}
+
 void Store::set_step_hook_for_testing(sqlite::StepHook hook) {
   impl_->connection->set_step_hook(std::move(hook));
 }
+
+sqlite::Connection& Store::connection() { return *impl_->connection; }
 
 // ---- Store::Impl ----
 

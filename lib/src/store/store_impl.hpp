@@ -14,6 +14,9 @@ struct Store::Impl {
   StoreOptions options;
   int schema_version = 0;
   bool batch_open = false;
+  // The per-reading INSERT, held once prepared so that each reading skips the statement cache's
+  // look-up (which hashes the SQL text). Owned by the connection's cache.
+  sqlite::Statement* insert_reading = nullptr;
 
   // Runs `sql` (BEGIN IMMEDIATE, COMMIT) until it succeeds, retrying while another connection
   // holds the lock, up to options.busy_attempts times. A COMMIT that fails with SQLITE_BUSY

@@ -31,12 +31,24 @@ Result<void> check_finite(const StoredReading& reading) {
                           reading.time_ms));
 }
 
-Result<InsertResult> insert_reading(sqlite::Connection& connection, const StoredReading& reading) {
+// The reading INSERT on loan. `held` keeps it once prepared (Store::Impl::insert_reading). Every
+// parameter is bound for each reading, so the loan keeps the bindings instead of clearing them.
+Result<sqlite::CachedStatement> reading_insert(sqlite::Connection& connection,
+                                               sqlite::Statement*& held) {
+  using Loan = sqlite::CachedStatement;
+  if (held != nullptr) return Loan(held, Loan::Bindings::keep);
+  auto insert = connection.cached(
+      "INSERT INTO readings (site_key, time_ms, stage, depth, discharge, flags, config_id) "
+      "VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7) ON CONFLICT (site_key, time_ms) DO NOTHING");
+  if (insert) held = &**insert;
+  return insert;
+}
+
+Result<InsertResult> insert_reading(sqlite::Connection& connection, sqlite::Statement*& held,
+                                    const StoredReading& reading) {
   if (auto ok = check_finite(reading); !ok) return std::unexpected(ok.error());
   {
-    auto insert = connection.cached(
-        "INSERT INTO readings (site_key, time_ms, stage, depth, discharge, flags, config_id) "
-        "VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7) ON CONFLICT (site_key, time_ms) DO NOTHING");
+    auto insert = reading_insert(connection, held);
     if (!insert) return std::unexpected(insert.error());
     auto& s = **insert;
     s.bind(1, reading.site.value);
@@ -108,7 +120,7 @@ Result<T> WriteBatch::spoil_on_error(Result<T> result) {
 
 Result<InsertResult> WriteBatch::insert(const StoredReading& reading) {
   if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
-  return spoil_on_error(insert_reading(*store_->connection, reading));
+  return spoil_on_error(insert_reading(*store_->connection, store_->insert_reading, reading));
 }
 
 Result<bool> WriteBatch::add_flags(SiteKey site, std::int64_t time_ms, Flags flags) {
@@ -178,6 +190,8 @@ Result<void> WriteBatch::commit() {
   store_ = nullptr;
   return {};
 }
+
+sqlite::Connection& WriteBatch::connection() { return *store_->connection; }
 
 void WriteBatch::roll_back() {
   if (store_ == nullptr) return;

@@ -1,0 +1,68 @@
+// Pictures for people, as SVG text: a hydrograph (discharge and stage over a period) and a
+// flow-duration curve. Drawn for reading on paper: black axes labelled with their units, thick
+// enough lines, and flagged readings told apart by shape as well as colour.
+//
+// Hydrograph: discharge (top panel) and stage (bottom panel) against local time. The line breaks
+// where readings are more than max_gap apart and, for discharge, at readings without one
+// (out_of_range): a gap is drawn as a gap. Flagged readings are marked by how the daily figures
+// treat them (DailySpec): a cross for "left out, time missing", a triangle for "left out, bridged",
+// a circle for "flagged, used"; the legend names the flags of each. A period with more readings
+// than the plot has pixels is drawn as each pixel column's lowest and highest value, so no peak
+// is lost.
+//
+// Flow-duration curve: daily mean discharge on a logarithmic axis against the share of days it
+// was equalled or exceeded (statistics.hpp). Days with zero flow cannot be shown on a log axis;
+// the picture says how many were left out.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "stagewell/daily.hpp"
+#include "stagewell/result.hpp"
+#include "stagewell/sqlite.hpp"
+#include "stagewell/statistics.hpp"
+#include "stagewell/store.hpp"
+#include "stagewell/timestamp.hpp"
+
+namespace stagewell::plot {
+
+// A stored reading as the hydrograph needs it.
+struct PlotReading {
+  std::int64_t time_ms = 0;
+  double stage = 0.0;               // stage units, as read
+  std::optional<double> discharge;  // stored unit (m^3/s or ft^3/s); empty when out_of_range
+  Flags flags;
+};
+
+// The site's readings timed in [from_ms, to_ms), in time order.
+Result<std::vector<PlotReading>> read_plot_readings(sqlite::Connection& connection, SiteKey site,
+                                                    std::int64_t from_ms, std::int64_t to_ms);
+
+struct HydrographSpec {
+  std::string title;   // e.g. "raceway-a (Hatchery raceway A outlet)"
+  std::string period;  // e.g. "2026-03-01 to 2026-03-31"
+  std::int64_t from_ms = 0;
+  std::int64_t to_ms = 0;
+  TimeZone zone = TimeZone::utc();  // of the time axis
+  std::int64_t max_gap_ms = 3'600'000;
+  Flags excluded;  // how the daily figures treat flags (for the markers)
+  Flags bridged;
+  stats::Conversion units;     // discharge shown = stored * units.flow_factor
+  std::string stage_symbol;    // "m", "cm", "ft"...
+};
+
+// REQUIRES: from_ms < to_ms; readings in time order.
+std::string hydrograph_svg(const std::vector<PlotReading>& readings, const HydrographSpec& spec);
+
+struct DurationSpec {
+  std::string title;
+  std::string period;  // "2025-10-01 to 2026-09-30"
+  stats::Conversion units;
+};
+
+std::string duration_svg(const stats::FlowDuration& duration, const DurationSpec& spec);
+
+}  // namespace stagewell::plot

@@ -1,0 +1,169 @@
+// Keeping the daily figures current: which days a batch touched, the readings of those days, and
+// recomputing them.
+#include "stagewell/daily_keeper.hpp"
+
+#include <algorithm>
+#include <limits>
+
+namespace stagewell::daily {
+namespace {
+
+constexpr std::int64_t kNoReadings = std::numeric_limits<std::int64_t>::min();
+
+// The site's latest reading time as the connection sees it; kNoReadings when it has none.
+Result<std::int64_t> latest_reading_ms(sqlite::Connection& connection, SiteKey site) {
+  auto span = reading_span(connection, site);
+  if (!span) return std::unexpected(span.error());
+  return *span ? (*span)->second : kNoReadings;
+}
+
+bool by_time(const DayReading& a, const DayReading& b) { return a.time_ms < b.time_ms; }
+
+}  // namespace
+
+Result<DailyKeeper> DailyKeeper::create(const Config& config) {
+  auto zone = TimeZone::parse(config.timezone);
+  if (!zone) return std::unexpected(zone.error());
+  return DailyKeeper(DayCalendar(std::move(*zone)), config.units, config.daily);
+}
+
+Result<void> DailyKeeper::add_site(Store& store, SiteKey key, const SiteConfig& site) {
+  Site& entry = sites_[key];
+  entry.rules = rules_for(site, daily_);
+  entry.stored_until_ms.reset();  // learnt at the first update
+  const std::string settings = settings_text(calendar_, units_, entry.rules);
+  auto current = figures_current(store.connection(), key, settings);
+  if (!current) return std::unexpected(current.error());
+  if (*current) return {};
+  auto batch = store.begin();
+  if (!batch) return std::unexpected(batch.error());
+  auto done = recompute_site(batch->connection(), key, calendar_, entry.rules, settings);
+  if (!done) return done;  // the batch rolls back as it goes out of scope
+  return batch->commit();
+}
+
+void DailyKeeper::stored(SiteKey site, const DayReading& reading) {
+  const auto found = sites_.find(site);
+  if (found != sites_.end()) found->second.added.push_back(reading);
+}
+
+void DailyKeeper::flagged(SiteKey site, std::int64_t time_ms, Flags flags) {
+  const auto found = sites_.find(site);
+  if (found != sites_.end()) found->second.reflagged.emplace_back(time_ms, flags);
+}
+
+Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Site& site,
+                                 std::int64_t from_ms, std::int64_t to_ms) {
+  // Up to the latest reading stored before this batch the database has everything, this batch's
+  // readings and flags included. After it, every reading is one of this batch's (site.added,
+  // sorted), which only need the flags added since they were stored.
+  const std::int64_t until = site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
+  if (from_ms <= until) {
+    auto read = read_readings(connection, key, from_ms, std::min(to_ms, until), buffer_);
+    if (!read) return read;
+  } else {
+    buffer_.clear();
+  }
+  if (to_ms <= until) return {};
+  const auto first = std::upper_bound(site.added.begin(), site.added.end(),
+                                      DayReading{std::max(from_ms - 1, until), {}, {}}, by_time);
+  for (auto it = first; it != site.added.end() && it->time_ms <= to_ms; ++it) {
+    buffer_.push_back(*it);
+  }
+  return {};
+}
+
+Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey key, Site& site) {
+  auto& added = site.added;
+  std::stable_sort(added.begin(), added.end(), by_time);
+  // Flags added to this batch's own readings beyond stored_until_ms: the database has them, the
+  // copies in `added` must get them too.
+  const std::int64_t until = site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
+  for (const auto& [time_ms, flags] : site.reflagged) {
+    if (time_ms <= until) continue;
+    const auto it = std::lower_bound(added.begin(), added.end(), DayReading{time_ms, {}, {}},
+                                     by_time);
+    if (it != added.end() && it->time_ms == time_ms) it->flags |= flags;
+  }
+
+  std::vector<std::int64_t> times;
+  times.reserve(added.size() + site.reflagged.size());
+  for (const auto& reading : added) times.push_back(reading.time_ms);
+  for (const auto& [time_ms, flags] : site.reflagged) times.push_back(time_ms);
+  std::sort(times.begin(), times.end());
+  const std::int64_t gap = site.rules.max_gap_ms;
+
+  // The touched days, as runs of consecutive days. Times are sorted, so t - gap never falls before
+  // the last run's first day: a time whose t + gap lies within the days already listed adds
+  // nothing and costs no lookup (the common case: many readings of one day).
+  std::vector<std::pair<Day, Day>> runs;
+  std::int64_t listed_until_ms = 0;  // end of the last listed day
+  for (const std::int64_t t : times) {
+    if (!runs.empty() && t + gap < listed_until_ms) continue;
+    const Day first = calendar_.day_of(t - gap);
+    const Day last = calendar_.day_of(t + gap);
+    if (!runs.empty() && first <= runs.back().second + 1) {
+      runs.back().second = std::max(runs.back().second, last);
+    } else {
+      runs.emplace_back(first, last);
+    }
+    listed_until_ms = calendar_.start_ms(runs.back().second + 1);
+  }
+
+  for (const auto& [first, last] : runs) {
+    // One gathering covers the run and the max_gap around it.
+    auto read = gather(connection, key, site, calendar_.start_ms(first) - gap,
+                       calendar_.start_ms(last + 1) + gap);
+    if (!read) return read;
+    for (Day day = first; day <= last; ++day) {
+      if (auto done = write_day(connection, key, compute_day(buffer_, day, calendar_, site.rules));
+          !done) {
+        return done;
+      }
+    }
+  }
+
+  // What the next batch may take as stored before it.
+  if (site.stored_until_ms) {
+    if (!added.empty()) site.stored_until_ms = std::max(*site.stored_until_ms, added.back().time_ms);
+  } else {
+    auto latest = latest_reading_ms(connection, key);
+    if (!latest) return std::unexpected(latest.error());
+    site.stored_until_ms = *latest;
+  }
+  added.clear();
+  site.reflagged.clear();
+  return {};
+}
+
+Result<void> DailyKeeper::update(sqlite::Connection& connection) {
+  // Another connection committed since our last update: what we know of the stored readings may
+  // be out of date, so read everything back this time.
+  auto version = connection.query_int64("PRAGMA data_version");
+  if (!version) {
+    forget();
+    return std::unexpected(version.error());
+  }
+  if (data_version_ != *version) {
+    for (auto& [key, site] : sites_) site.stored_until_ms.reset();
+  }
+  for (auto& [key, site] : sites_) {
+    if (site.added.empty() && site.reflagged.empty()) continue;
+    if (auto done = update_site(connection, key, site); !done) {
+      forget();
+      return done;
+    }
+  }
+  data_version_ = *version;
+  return {};
+}
+
+void DailyKeeper::forget() {
+  for (auto& [key, site] : sites_) {
+    site.added.clear();
+    site.reflagged.clear();
+    site.stored_until_ms.reset();  // the batch may have moved it and then been rolled back
+  }
+}
+
+}  // namespace stagewell::daily
