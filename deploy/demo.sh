@@ -24,21 +24,25 @@ touch -d '-1 minute' "$demo"/incoming/*.csv   # settled: the service leaves file
 
 feed_logger() {
   local file=$demo/logger/raceway-a.csv
+  local level=4520   # tenths of a millimetre: a slow random walk around 0.452 m
   echo "time,stage" > "$file"
   while true; do
+    level=$((level + RANDOM % 3 - 1))
     # Local standard time (UTC-07:00, the source's time_zone), no offset written, like the logger.
-    printf '%s,0.%03d\n' "$(TZ=Etc/GMT+7 date +%Y-%m-%dT%H:%M:%S)" $((440 + RANDOM % 25)) >> "$file"
+    printf '%s,0.%04d\n' "$(TZ=Etc/GMT+7 date +%Y-%m-%dT%H:%M:%S)" "$level" >> "$file"
     sleep 5
   done
 }
-feed_logger &
-feeder=$!
 "$bin/stagewelld" --config "$config" &
 daemon=$!
+feeder=""
 trap 'kill $feeder 2>/dev/null || true; kill -TERM $daemon 2>/dev/null || true; wait $daemon 2>/dev/null || true' EXIT
 trap 'exit 0' INT TERM
 
+# The live feed starts once the history is in, so that history does not arrive "late".
 sleep 3
+feed_logger &
+feeder=$!
 cat <<EOM
 
 == stagewelld is running on $config (pid $daemon); Ctrl-C stops it.
