@@ -82,14 +82,14 @@ void print_csv(const Report& report, const std::vector<daily::DayFigures>& days)
     for (const auto& count : day.flag_counts) {
       flags += fmt::format("{}{}={}", flags.empty() ? "" : " ", name(count.flag), count.readings);
     }
-    std::cout << fmt::format(
-        "{},{},{},{},{},{},{},{},{},{},{}\n", daily::format_day(day.day),
-        csv_number(u.volume_of(day.volume)), csv_number(u.flow_of(day.mean_discharge)),
-        csv_number(u.flow_of(day.min_discharge)),
-        day.min_time_ms ? format_timestamp_utc(*day.min_time_ms) : "",
-        csv_number(u.flow_of(day.max_discharge)),
-        day.max_time_ms ? format_timestamp_utc(*day.max_time_ms) : "", day.coverage, day.readings,
-        day.flagged, flags);
+    std::cout << fmt::format("{},{},{},{},{},{},{},{},{},{},{}\n", daily::format_day(day.day),
+                             csv_number(u.volume_of(day.volume)),
+                             csv_number(u.flow_of(day.mean_discharge)),
+                             csv_number(u.flow_of(day.min_discharge)),
+                             day.min_time_ms ? format_timestamp_utc(*day.min_time_ms) : "",
+                             csv_number(u.flow_of(day.max_discharge)),
+                             day.max_time_ms ? format_timestamp_utc(*day.max_time_ms) : "",
+                             day.coverage, day.readings, day.flagged, flags);
   }
 }
 
@@ -99,13 +99,12 @@ void print_table(const Report& report, const std::vector<daily::DayFigures>& day
   const auto volume = units::symbol(u.volume);
   const auto flow = units::symbol(u.flow);
   std::cout << fmt::format("{}: daily figures {} to {}, days in {}\n", site_title(report.site),
-                           daily::format_day(report.from),
-                           daily::format_day(report.to), zone.name());
+                           daily::format_day(report.from), daily::format_day(report.to),
+                           zone.name());
   std::cout << fmt::format("{:<10} {:>12} {:>11} {:>11} {:>8} {:>11} {:>8} {:>8} {:>8} {:>7}  {}\n",
-                           "day", fmt::format("volume {}", volume),
-                           fmt::format("mean {}", flow), fmt::format("min {}", flow), "at",
-                           fmt::format("max {}", flow), "at", "covered", "readings", "flagged",
-                           "flags");
+                           "day", fmt::format("volume {}", volume), fmt::format("mean {}", flow),
+                           fmt::format("min {}", flow), "at", fmt::format("max {}", flow), "at",
+                           "covered", "readings", "flagged", "flags");
   const auto shown = [](std::optional<double> v) { return v ? format_number(*v) : "-"; };
   const auto at = [&](std::optional<std::int64_t> t) {
     return t ? local_time_of_day(*t, zone) : std::string("-");

@@ -160,9 +160,8 @@ int run_ingest(const IngestOptions& options) {
       continue;
     }
     if ((*reader)->done_bytes() > 0 && (*reader)->done_bytes() >= (*reader)->size_bytes()) {
-      std::cerr << fmt::format("{}: already read to its end by an earlier run (--again reads it "
-                               "again)\n",
-                               path);
+      std::cerr << path << ": already read to its end by an earlier run"
+                << " (--again reads it again)\n";
     } else if ((*reader)->done_bytes() > 0) {
       std::cerr << fmt::format("{}: resuming at byte {} of {} (--again reads it from the start)\n",
                                path, (*reader)->done_bytes(), (*reader)->size_bytes());

@@ -56,9 +56,9 @@ Result<std::string> duration(Report& r, const std::string& period) {
 int run_plot(const PlotOptions& options) {
   auto report = open_report(options.report);
   if (!report) return report.error();
-  const std::string period = fmt::format("{} to {} ({})", daily::format_day(report->from),
-                                         daily::format_day(report->to),
-                                         report->reader.calendar().zone().name());
+  const std::string period =
+      fmt::format("{} to {} ({})", daily::format_day(report->from), daily::format_day(report->to),
+                  report->reader.calendar().zone().name());
   auto svg = options.kind == "duration" ? duration(*report, period) : hydrograph(*report, period);
   if (!svg) {
     std::cerr << svg.error().message << '\n';
@@ -86,9 +86,10 @@ void add_plot_command(CLI::App& program, Action& chosen) {
   auto options = std::make_shared<PlotOptions>();
   add_report_options(*command, options->report, true);
   command->add_option("-o,--out", options->out, "The SVG file to write")->required();
-  command->add_option("--kind", options->kind,
-                      "hydrograph: discharge and stage over time (default); duration: "
-                      "flow-duration curve of the daily means")
+  command
+      ->add_option("--kind", options->kind,
+                   "hydrograph: discharge and stage over time (default); duration: "
+                   "flow-duration curve of the daily means")
       ->check(CLI::IsMember({"hydrograph", "duration"}));
   command->footer(
       "Flagged readings are marked by how the daily figures treat them: a cross (left out, time "

@@ -28,10 +28,10 @@ nlohmann::json optional_number(std::optional<double> value) {
 
 std::string local_time(std::int64_t time_ms, const TimeZone& zone) {
   const std::int64_t seconds = time_ms >= 0 ? time_ms / 1000 : -((-time_ms + 999) / 1000);
-  const auto civil = cctz::convert(
-      cctz::time_point<cctz::seconds>(cctz::seconds(seconds)), zone.cctz_zone());
-  return fmt::format("{:04d}-{:02d}-{:02d} {:02d}:{:02d}", civil.year(), civil.month(),
-                     civil.day(), civil.hour(), civil.minute());
+  const auto civil =
+      cctz::convert(cctz::time_point<cctz::seconds>(cctz::seconds(seconds)), zone.cctz_zone());
+  return fmt::format("{:04d}-{:02d}-{:02d} {:02d}:{:02d}", civil.year(), civil.month(), civil.day(),
+                     civil.hour(), civil.minute());
 }
 
 nlohmann::json period_json(const stats::PeriodTotal& p, const stats::Conversion& u) {
@@ -71,9 +71,9 @@ void print_json(const Report& r, const Computed& c) {
       {"water_year_start_month", r.config.daily.water_year_start_month},
       {"stored", !r.reader.stale()},
   };
-  for (const auto& [key, periods] : {std::pair{"months", &c.months},
-                                     std::pair{"calendar_years", &c.years},
-                                     std::pair{"water_years", &c.water_years}}) {
+  for (const auto& [key, periods] :
+       {std::pair{"months", &c.months}, std::pair{"calendar_years", &c.years},
+        std::pair{"water_years", &c.water_years}}) {
     out[key] = nlohmann::json::array();
     for (const auto& p : *periods) out[key].push_back(period_json(p, u));
   }
@@ -104,7 +104,8 @@ void print_periods(const Report& r, const std::string& heading,
   std::cout << fmt::format("{:<8} {:>13} {:>12} {:>8}", "period",
                            fmt::format("volume {}", units::symbol(u.volume)),
                            fmt::format("mean {}", flow), "covered");
-  if (low_flow) std::cout << fmt::format(" {:>14} {:>10}", fmt::format("7-day min {}", flow), "from");
+  if (low_flow)
+    std::cout << fmt::format(" {:>14} {:>10}", fmt::format("7-day min {}", flow), "from");
   std::cout << fmt::format(" {:>12}  {}\n", fmt::format("peak {}", flow), "peak at (local)");
   for (const auto& p : periods) {
     std::cout << fmt::format("{:<8} {:>13} {:>12} {:>7.1f}%", p.label,
@@ -127,11 +128,10 @@ void print_text(const Report& r, const Computed& c) {
                            r.reader.calendar().zone().name());
   print_periods(r, "Months", c.months, false);
   print_periods(r, "Calendar years", c.years, true);
-  print_periods(
-      r,
-      fmt::format("Water years (from 1 {}; named by the year they end in)",
-                  kMonthNames[r.config.daily.water_year_start_month - 1]),
-      c.water_years, true);
+  print_periods(r,
+                fmt::format("Water years (from 1 {}; named by the year they end in)",
+                            kMonthNames[r.config.daily.water_year_start_month - 1]),
+                c.water_years, true);
   std::cout << fmt::format(
       "\nFlow duration: daily means of {} complete days ({} days with missing time left out)\n",
       c.duration.curve.size(), c.duration.days_left_out);
@@ -158,10 +158,10 @@ int run_stats(const StatsOptions& options) {
   const auto& calendar = report->reader.calendar();
   const int start = report->config.daily.water_year_start_month;
   Computed c;
-  c.months = stats::totals(*days, report->from, report->to, stats::PeriodKind::month, start,
-                           calendar);
-  c.years = stats::totals(*days, report->from, report->to, stats::PeriodKind::calendar_year,
-                          start, calendar);
+  c.months =
+      stats::totals(*days, report->from, report->to, stats::PeriodKind::month, start, calendar);
+  c.years = stats::totals(*days, report->from, report->to, stats::PeriodKind::calendar_year, start,
+                          calendar);
   c.water_years = stats::totals(*days, report->from, report->to, stats::PeriodKind::water_year,
                                 start, calendar);
   c.duration = stats::flow_duration(*days);

@@ -10,24 +10,26 @@ namespace stagewell::cli {
 void add_report_options(CLI::App& command, ReportOptions& options, bool period_required) {
   add_config_option(command, options.config_path);
   command.add_option("-s,--site", options.site_id, "Site id")->required();
-  auto* from = command.add_option("--from", options.from,
-                                  "First local day, YYYY-MM-DD" +
-                                      std::string(period_required ? "" : " (default: the first "
-                                                                         "day of the record)"));
+  auto* from = command.add_option(
+      "--from", options.from,
+      "First local day, YYYY-MM-DD" + std::string(period_required ? ""
+                                                                  : " (default: the first "
+                                                                    "day of the record)"));
   auto* to = command.add_option("--to", options.to,
                                 "Last local day, YYYY-MM-DD, included" +
-                                    std::string(period_required ? "" : " (default: the last day "
-                                                                       "of the record)"));
+                                    std::string(period_required ? ""
+                                                                : " (default: the last day "
+                                                                  "of the record)"));
   if (period_required) {
     from->required();
     to->required();
   }
-  command.add_option("--flow-units", options.flow_units,
-                     "Discharge in: " + units::flow_choices() +
-                         " (default: the configuration's, m3/s or ft3/s)");
-  command.add_option("--volume-units", options.volume_units,
-                     "Volume in: " + units::volume_choices() +
-                         " (default: the configuration's, m3 or ft3)");
+  command.add_option(
+      "--flow-units", options.flow_units,
+      "Discharge in: " + units::flow_choices() + " (default: the configuration's, m3/s or ft3/s)");
+  command.add_option(
+      "--volume-units", options.volume_units,
+      "Volume in: " + units::volume_choices() + " (default: the configuration's, m3 or ft3)");
 }
 
 std::expected<Report, int> open_report(const ReportOptions& options) {
@@ -56,8 +58,8 @@ std::expected<Report, int> open_report(const ReportOptions& options) {
   }
   std::optional<daily::Day> from;
   std::optional<daily::Day> to;
-  for (const auto& [text, out, name] : {std::tuple{&options.from, &from, "--from"},
-                                        std::tuple{&options.to, &to, "--to"}}) {
+  for (const auto& [text, out, name] :
+       {std::tuple{&options.from, &from, "--from"}, std::tuple{&options.to, &to, "--to"}}) {
     if (text->empty()) continue;
     *out = daily::parse_day(*text);
     if (!*out) {
@@ -123,8 +125,8 @@ std::string site_title(const SiteConfig& site) {
 
 std::string local_time_of_day(std::int64_t time_ms, const TimeZone& zone) {
   const std::int64_t seconds = time_ms >= 0 ? time_ms / 1000 : -((-time_ms + 999) / 1000);
-  const auto civil = cctz::convert(
-      cctz::time_point<cctz::seconds>(cctz::seconds(seconds)), zone.cctz_zone());
+  const auto civil =
+      cctz::convert(cctz::time_point<cctz::seconds>(cctz::seconds(seconds)), zone.cctz_zone());
   return fmt::format("{:02d}:{:02d}:{:02d}", civil.hour(), civil.minute(), civil.second());
 }
 

@@ -56,6 +56,7 @@ std::string summary(const IngestCounts& counts) {
 struct Service::Source {
   std::variant<DropFolder, TailedFile> impl;
   std::string label;
+  std::string trouble;  // the source's last error, logged once rather than at every poll
 
   Result<bool> poll(std::size_t max_bytes) {
     return std::visit([&](auto& source) { return source.poll(max_bytes); }, impl);
@@ -109,10 +110,10 @@ bool Service::open(const Config& config) {
   for (const auto& spec : ingestor_->config().sources) {
     if (spec.type == SourceSpec::Type::directory) {
       sources_.push_back(std::make_unique<Source>(
-          Source{DropFolder(spec, *ingestor_), "folder " + spec.path.string()}));
+          Source{DropFolder(spec, *ingestor_), "folder " + spec.path.string(), {}}));
     } else if (spec.type == SourceSpec::Type::tail) {
       sources_.push_back(std::make_unique<Source>(
-          Source{TailedFile(spec, *ingestor_), "tail " + spec.path.string()}));
+          Source{TailedFile(spec, *ingestor_), "tail " + spec.path.string(), {}}));
     }
   }
   // ---- tcp sources (issue 5): listeners on this io_context; see tcp_listener.hpp ----
@@ -168,8 +169,16 @@ void Service::poll() {
         return;
       }
       // A source's own trouble (a permission, a vanished file): log and go on with the others.
-      spdlog::warn("{}: {}", source->label, polled.error().message);
+      // The same trouble is logged once, not five times a second.
+      if (polled.error().message != source->trouble) {
+        spdlog::warn("{}: {}", source->label, polled.error().message);
+        source->trouble = polled.error().message;
+      }
       continue;
+    }
+    if (!source->trouble.empty()) {
+      spdlog::info("{}: working again", source->label);
+      source->trouble.clear();
     }
     more = more || *polled;
   }

@@ -16,7 +16,7 @@ TEST_CASE("Weibull exceedance with ties at their mean rank: the published worked
   // flows (10, 5, 0, 15, 8, missing, 0, 20) give (0.3750, 0.6250, 0.8125, 0.2500, 0.5000,
   // missing, 0.8125, 0.1250). The two zeros share ranks 6 and 7: 6.5 / 8 = 0.8125.
   const std::vector<std::optional<double>> flows{10, 5, 0, 15, 8, std::nullopt, 0, 20};
-  const std::vector<std::optional<double>> published{0.3750, 0.6250, 0.8125, 0.2500,
+  const std::vector<std::optional<double>> published{0.3750, 0.6250,       0.8125, 0.2500,
                                                      0.5000, std::nullopt, 0.8125, 0.1250};
   const auto p = exceedance_probabilities(flows);
   REQUIRE(p.size() == published.size());
@@ -38,8 +38,8 @@ TEST_CASE("Q(p): linear between the plotting positions, nothing beyond the recor
   CHECK(*flow_exceeded(flows, 0.25) == doctest::Approx(7.5));  // between 8 (0.2) and 7 (0.3)
   CHECK(*flow_exceeded(flows, 0.1) == doctest::Approx(9.0));   // the largest, at 1/(n+1)
   CHECK(*flow_exceeded(flows, 0.9) == doctest::Approx(1.0));   // the smallest, at n/(n+1)
-  CHECK_FALSE(flow_exceeded(flows, 0.05).has_value());  // h = 0.5 < 1: before the largest
-  CHECK_FALSE(flow_exceeded(flows, 0.95).has_value());  // h = 9.5 > 9: after the smallest
+  CHECK_FALSE(flow_exceeded(flows, 0.05).has_value());         // h = 0.5 < 1: before the largest
+  CHECK_FALSE(flow_exceeded(flows, 0.95).has_value());         // h = 9.5 > 9: after the smallest
   CHECK_FALSE(flow_exceeded({}, 0.5).has_value());
 }
 

@@ -1,8 +1,8 @@
 // Daily figures kept current batch by batch (DailyKeeper) equal a full recomputation from the
 // stored readings, whatever order the readings arrive in: late readings, flags added to earlier
 // readings, days across a DST change. A failure while updating leaves nothing of the batch.
-// (The figures themselves are checked against independent references in daily_integrate_test.cpp and
-// tests/e2e/daily_figures_test.py.)
+// (The figures themselves are checked against independent references in daily_integrate_test.cpp
+// and tests/e2e/daily_figures_test.py.)
 #include <doctest/doctest.h>
 #include <sqlite3.h>
 
@@ -146,8 +146,8 @@ TEST_CASE("late readings and late flags: the kept figures equal a full recomputa
   SUBCASE("recompute_site stores the same figures") {
     auto batch = store.begin();
     REQUIRE(batch.has_value());
-    REQUIRE(recompute_site(batch->connection(), site.key, keeper->calendar(), rules, "x")
-                .has_value());
+    REQUIRE(
+        recompute_site(batch->connection(), site.key, keeper->calendar(), rules, "x").has_value());
     REQUIRE(batch->commit().has_value());
     check_equal(stored_figures(store, site.key), kept);
   }

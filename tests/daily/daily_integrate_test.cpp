@@ -56,8 +56,8 @@ TEST_CASE("an interval across midnight is split where the straight line crosses 
                                          at(kMarch1 + 10 * kMinute, 20.0)};
   const auto before = compute_day(readings, Day(2026, 2, 28), calendar(), rules());
   const auto after = compute_day(readings, Day(2026, 3, 1), calendar(), rules());
-  CHECK(*before.volume == doctest::Approx((0.0 + 10.0) / 2 * 600).epsilon(1e-12));   // 3,000
-  CHECK(*after.volume == doctest::Approx((10.0 + 20.0) / 2 * 600).epsilon(1e-12));   // 9,000
+  CHECK(*before.volume == doctest::Approx((0.0 + 10.0) / 2 * 600).epsilon(1e-12));  // 3,000
+  CHECK(*after.volume == doctest::Approx((10.0 + 20.0) / 2 * 600).epsilon(1e-12));  // 9,000
   CHECK(before.covered_ms == 10 * kMinute);
   CHECK(after.covered_ms == 10 * kMinute);
   CHECK(*after.mean_discharge == doctest::Approx(15.0).epsilon(1e-12));  // 9,000 / 600 s
@@ -81,15 +81,14 @@ TEST_CASE("an interval longer than max_gap is missing time; exactly max_gap is i
 
 TEST_CASE("an excluded reading makes the time around it missing; a bridged one is joined over") {
   const std::int64_t t0 = kMarch1 + 6 * kHour;
-  std::vector<DayReading> readings{at(t0, 2.0), at(t0 + 10 * kMinute, 50.0, Flag::spike),
-                                   at(t0 + 20 * kMinute, 4.0),
-                                   at(t0 + 30 * kMinute, std::nullopt, Flag::out_of_range),
-                                   at(t0 + 40 * kMinute, 4.0)};
+  std::vector<DayReading> readings{
+      at(t0, 2.0), at(t0 + 10 * kMinute, 50.0, Flag::spike), at(t0 + 20 * kMinute, 4.0),
+      at(t0 + 30 * kMinute, std::nullopt, Flag::out_of_range), at(t0 + 40 * kMinute, 4.0)};
   const auto f = compute_day(readings, Day(2026, 3, 1), calendar(), rules());
   // Bridged spike: 2 -> 4 over 20 min = 3 x 1200 s = 3,600 [C]; 20..40 min missing (excluded).
   CHECK(f.covered_ms == 20 * kMinute);
   CHECK(*f.volume == doctest::Approx(3600.0).epsilon(1e-12));
-  CHECK(*f.max_discharge == 4.0);  // the spike is not used
+  CHECK(*f.max_discharge == 4.0);              // the spike is not used
   CHECK(*f.max_time_ms == t0 + 20 * kMinute);  // equal values: the earliest
   CHECK(f.readings == 5);
   CHECK(f.flagged == 2);
@@ -129,7 +128,8 @@ TEST_CASE("a reading without discharge and no treatment of its own is left out")
 
 TEST_CASE("on the 23-hour and 25-hour days a steady flow gives flow x 82,800 s and 90,000 s") {
   const auto denver = calendar("America/Denver");
-  for (const auto& [day, hours] : {std::pair{Day(2026, 3, 8), 23}, std::pair{Day(2026, 11, 1), 25}}) {
+  for (const auto& [day, hours] :
+       {std::pair{Day(2026, 3, 8), 23}, std::pair{Day(2026, 11, 1), 25}}) {
     std::vector<DayReading> readings;
     for (std::int64_t t = denver.start_ms(day) - kHour; t <= denver.start_ms(day + 1) + kHour;
          t += 15 * kMinute) {

@@ -44,8 +44,8 @@ TEST_CASE("water years start in the configured month and are named by the year t
   // USGS usage: the water year runs from 1 October to 30 September and is designated by the
   // calendar year in which it ends (USGS water-data reports, definitions; from memory).
   const auto days = sample_days();
-  const auto wy = totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::water_year, 10,
-                         utc());
+  const auto wy =
+      totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::water_year, 10, utc());
   REQUIRE(wy.size() == 2);
   CHECK(wy[0].label == "WY2025");
   CHECK(wy[0].first == Day(2025, 9, 20));  // clipped to the range asked for
@@ -53,8 +53,8 @@ TEST_CASE("water years start in the configured month and are named by the year t
   CHECK(wy[1].label == "WY2026");
   CHECK(wy[1].first == Day(2025, 10, 1));
   // A January start makes the water year the calendar year.
-  const auto january = totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::water_year,
-                              1, utc());
+  const auto january =
+      totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::water_year, 1, utc());
   REQUIRE(january.size() == 1);
   CHECK(january[0].label == "WY2025");
 }
@@ -85,8 +85,8 @@ TEST_CASE("the 7-day minimum: complete days, consecutive, within the year") {
   // Calendar 2025 holds the whole low week, Sep 27 - Oct 3 [C].
   CHECK(*years[0].min_7day_mean == doctest::Approx(1.0));
   CHECK(*years[0].min_7day_first == Day(2025, 9, 27));
-  const auto wy = totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::water_year, 10,
-                         utc());
+  const auto wy =
+      totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::water_year, 10, utc());
   // WY2025 ends on Sep 30: its lowest window is Sep 24-30 = (3 x 10 + 4 x 1) / 7 [C].
   CHECK(*wy[0].min_7day_mean == doctest::Approx(34.0 / 7));
   CHECK(*wy[0].min_7day_first == Day(2025, 9, 24));

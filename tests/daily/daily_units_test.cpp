@@ -71,8 +71,8 @@ TEST_CASE("a cubic foot per second is 448.8 gallons a minute and 0.028316846592 
   const auto to_m3 = Conversion::make(units::System::us, std::nullopt, units::Volume::m3);
   CHECK(*to_m3.volume_of(43560.0) == doctest::Approx(1233.48183754752).epsilon(1e-12));
   // Megalitres from a metric day: 1 ML = 1000 m^3 exactly.
-  const auto ml = Conversion::make(units::System::metric, units::Flow::litres_per_s,
-                                   units::Volume::megalitres);
+  const auto ml =
+      Conversion::make(units::System::metric, units::Flow::litres_per_s, units::Volume::megalitres);
   CHECK(*ml.volume_of(86400.0) == doctest::Approx(86.4).epsilon(1e-12));
   CHECK(*ml.flow_of(1.0) == doctest::Approx(1000.0).epsilon(1e-12));
 }

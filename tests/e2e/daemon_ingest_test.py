@@ -37,6 +37,9 @@ sources:
     site: tailsite
     columns: {time: when, stage: level}
     time_zone: "-07:00"
+  - type: tail             # a mistake: a directory, not a file
+    path: logger/a-directory
+    site: tailsite
 sites:
   - id: rect
     section: {shape: rectangular, width: 2.4, height: 1.2}
@@ -265,6 +268,7 @@ def main():
         db = os.path.join(root, "db", "stagewell.db")
         os.makedirs(incoming)
         os.makedirs(os.path.dirname(tail_path))
+        os.makedirs(os.path.join(root, "logger", "a-directory"))
 
         with ds.Daemon(daemon_program, config, os.path.join(root, "daemon.log")) as daemon:
             daemon.start()
@@ -384,7 +388,43 @@ def main():
             for name in ["later.csv.part", "later.csv.tmp", ".hidden.csv"]:
                 R.check(f"{name} left alone", os.path.exists(os.path.join(incoming, name)))
 
+            # A file written in place (no temporary name) is read only once it has settled: not
+            # modified for 2 s. An older file dropped with it is read first.
+            fresh = os.path.join(incoming, "h-fresh.csv")
+            ds.write(fresh, "site,time,stage\nsteep," + ds.iso(T0 + 400 * MIN) + ",0.3\n")
+            written = time.time()
+            ds.drop_file(incoming, "h-old.csv",
+                         "site,time,stage\nsteep," + ds.iso(T0 + 405 * MIN) + ",0.31\n")
+            R.check("settled file read", ds.wait_until(
+                lambda: os.path.exists(os.path.join(done, "h-old.csv")), 20))
+            if time.time() - written < 1.5:  # otherwise this machine is too slow to tell
+                R.check("a file modified within 2 s is not read yet",
+                        os.path.exists(fresh) and ("steep", T0 + 400 * MIN) not in ds.stages(db))
+            R.check("the fresh file is read once settled", ds.wait_until(
+                lambda: os.path.exists(os.path.join(done, "h-fresh.csv")), 20))
+            R.check("... and not before 2 s after it was written",
+                    time.time() - written >= 1.9, f"{time.time() - written:.2f} s")
+
+            # A file read, moved to done/ and deleted there; a new file under the same name (which
+            # may get the same inode) is read from its start.
+            g1 = [("steep", T0 + 300 * MIN, "0.21"), ("steep", T0 + 305 * MIN, "0.22")]
+            g2 = [("steep", T0 + 310 * MIN, "0.23"), ("steep", T0 + 315 * MIN, "0.24"),
+                  ("steep", T0 + 320 * MIN, "0.25")]
+            for rows in (g1, g2):
+                ds.drop_file(incoming, "g-same-name.csv", "site,time,stage\n" + "".join(
+                    f"{s},{ds.iso(t)},{v}\n" for s, t, v in rows))
+                moved = os.path.join(done, "g-same-name.csv")
+                R.check("same-name file moved to done/", ds.wait_until(
+                    lambda: os.path.exists(moved), 20))
+                os.remove(moved)
+            have = ds.readings(db, "steep")
+            R.check("a new file under a read file's name is read whole",
+                    all(("steep", t) in have for _, t, _ in g1 + g2), f"{sorted(have)}")
+
             R.check("the daemon is still running after all that", daemon.running(), daemon.log())
+            complaints = daemon.log().count("a-directory is not a regular file")
+            R.check("a source's lasting trouble is logged once, not at every poll",
+                    complaints == 1, f"{complaints} times")
             code = daemon.stop()
             R.check("SIGTERM: exit status 0", code == 0, f"{code}\n{daemon.log()}")
     ds.exit_with(R)

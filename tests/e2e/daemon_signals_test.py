@@ -1,8 +1,9 @@
 #!/usr/bin/env python3
 """`stagewelld` and its signals: SIGHUP with an invalid configuration keeps the running one (and
 says why in the log); SIGHUP with a valid, changed configuration applies it to what is read next;
-SIGTERM in the middle of a large file exits 0 with exactly the lines before the stored progress
-committed, and the next start finishes the file with every line stored once.
+a SIGHUP in the middle of a large file takes the file up again where it was; SIGTERM in the
+middle of it exits 0 with exactly the lines before the stored progress committed, and the next
+start finishes the file with every line stored once.
 
 Discharges are compared with Manning's equation in closed form for a rectangular channel
 (daemon_support.manning; common practice) at 5e-4 relative: the service reads them from a rating
@@ -18,7 +19,7 @@ import daemon_support as ds
 R = ds.Results()
 T0 = 1714521600_000  # 2024-05-01T00:00:00Z, ms
 MIN = 60_000
-BIG_LINES = 200_000
+BIG_LINES = 300_000
 
 
 def config(roughness, extra_site=False, error=False):
@@ -123,8 +124,16 @@ def main():
             big_text = csv(big)
             ds.drop_file(incoming, "big.csv", big_text)
             count_before = ds.count(db, "SELECT count(*) FROM discharge")
+            # A reload in the middle of the file: the file is taken up again from its progress.
             ds.wait_until(lambda: ds.count(db, "SELECT count(*) FROM discharge")
-                          > count_before + 30_000, 30, interval_s=0.005)
+                          > count_before + 10_000, 30, interval_s=0.005)
+            reloads = daemon.log().count("reloaded")
+            daemon.signal(signal.SIGHUP)
+            R.check("reload during a file", ds.wait_until(
+                lambda: daemon.log().count("reloaded") > reloads, 10), daemon.log()[-2000:])
+            count_reloaded = ds.count(db, "SELECT count(*) FROM discharge")
+            ds.wait_until(lambda: ds.count(db, "SELECT count(*) FROM discharge")
+                          > count_reloaded + 5_000, 30, interval_s=0.005)
             daemon.signal(signal.SIGTERM)
             try:
                 code = daemon.process.wait(timeout=20)

@@ -98,6 +98,13 @@ def main():
             long_number = 1 + 9 + 1  # the header, lines 0..8, then this one
             ds.append(path, line(8) + long_line[:6000])
             wait_for([8], "line before the long one stored")
+            # The stored progress stops where the unfinished long line starts, never inside it.
+            line_start = os.path.getsize(path) - 6000
+            R.check("progress stops at the start of an unfinished too-long line",
+                    ds.wait_until(lambda: ds.query(
+                        db, "SELECT byte_offset FROM ingest_progress WHERE source LIKE 'tail:%'")
+                        == [(line_start,)], 5),
+                    f"{ds.query(db, 'SELECT byte_offset FROM ingest_progress')} vs {line_start}")
             daemon.kill9()
             daemon.start()
             ds.append(path, long_line[6000:] + line(9))

@@ -124,7 +124,8 @@ def reference(view_rows, first, last):
     for percent in (5, 10, 25, 50, 75, 90, 95):
         p = percent / 100
         inside = n > 0 and 1 / (n + 1) <= p <= n / (n + 1)
-        out["exceeded"][percent] = float(np.quantile(x, 1 - p, method="weibull")) if inside else None
+        out["exceeded"][percent] = (float(np.quantile(x, 1 - p, method="weibull")) if inside
+                                    else None)
     out["left_out"] = int(frame["has"].sum()) - n
     return out
 

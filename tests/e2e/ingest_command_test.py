@@ -49,7 +49,8 @@ X_CSV = ("site,time,stage\n"
          + line("a", 41, "0.61")         # identical repeat: ignored
          + line("a", 41, "0.7")          # same time, other stage: conflict
          + "a,not a time,0.6\n"          # bad_time
-         + line("nowhere", 42, "0.6"))   # unknown_site
+         + line("nowhere", 42, "0.6").rstrip("\n"))  # unknown_site; the file's last line has no
+                                                     # line ending: read once, not at every run
 # y.csv: 5 clean readings of site b.
 Y_CSV = "site,time,stage\n" + "".join(line("b", m, f"{0.3 + m / 100:.2f}") for m in range(5))
 
@@ -140,6 +141,19 @@ def main():
         R.check("a file that cannot be read: exit 1, the others still read",
                 partial.returncode == 1 and ("b", T0 + 100 * MIN) in ds.stages(db, "b"),
                 f"{partial.returncode} {partial.stdout} {partial.stderr}")
+
+        # --site and --time-zone: a file with no site column and local times at -07:00.
+        ds.write(os.path.join(root, "local.csv"),
+                 "time,stage\n2024-05-01 06:15:00,0.44\n2024-05-01 06:20,0.45\n")
+        local = run(stagewell, base + ["--site", "b", "--time-zone", "-07:00", "local.csv"], root)
+        have = ds.stages(db, "b")
+        R.check("--site, --time-zone: local 06:15 at -07:00 is 13:15Z", local.returncode == 0 and
+                have.get(("b", T0 + (13 * 60 + 15) * MIN)) == 0.44 and
+                have.get(("b", T0 + (13 * 60 + 20) * MIN)) == 0.45,
+                f"{local.returncode} {local.stdout} {local.stderr}")
+        unknown = run(stagewell, base + ["--site", "nowhere", "local.csv"], root)
+        R.check("--site naming no configured site: exit 1", unknown.returncode == 1,
+                f"{unknown.returncode} {unknown.stderr}")
 
         # A terminal gets a progress bar redrawn in place.
         master, slave = pty.openpty()

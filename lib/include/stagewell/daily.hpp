@@ -152,8 +152,7 @@ Result<std::optional<std::pair<Day, Day>>> stored_day_range(sqlite::Connection& 
 
 // The settings figures are computed with, as stored in daily_settings: any change to them means
 // the stored figures are stale.
-std::string settings_text(const DayCalendar& calendar, units::System units,
-                          const DayRules& rules);
+std::string settings_text(const DayCalendar& calendar, units::System units, const DayRules& rules);
 // True when the site's stored figures were computed with `settings`.
 Result<bool> figures_current(sqlite::Connection& connection, SiteKey site,
                              std::string_view settings);

@@ -58,7 +58,7 @@ class DailyKeeper {
  private:
   struct Site {
     DayRules rules;
-    std::vector<DayReading> added;                         // stored in the open batch
+    std::vector<DayReading> added;                          // stored in the open batch
     std::vector<std::pair<std::int64_t, Flags>> reflagged;  // flags added in the open batch
     // The latest reading time in the database before the open batch; nullopt when unknown (then
     // everything is read back).
@@ -68,14 +68,14 @@ class DailyKeeper {
       : calendar_(std::move(calendar)), units_(units), daily_(daily) {}
   Result<void> update_site(sqlite::Connection& connection, SiteKey key, Site& site);
   // The readings of [from_ms, to_ms] as the open transaction holds them, into buffer_.
-  Result<void> gather(sqlite::Connection& connection, SiteKey key, Site& site,
-                      std::int64_t from_ms, std::int64_t to_ms);
+  Result<void> gather(sqlite::Connection& connection, SiteKey key, Site& site, std::int64_t from_ms,
+                      std::int64_t to_ms);
 
   DayCalendar calendar_;
   units::System units_;
   DailySpec daily_;
   std::map<SiteKey, Site> sites_;
-  std::vector<DayReading> buffer_;  // reused by every update (see read_readings)
+  std::vector<DayReading> buffer_;            // reused by every update (see read_readings)
   std::optional<std::int64_t> data_version_;  // PRAGMA data_version after our last update
 };
 

@@ -50,8 +50,8 @@ struct HydrographSpec {
   std::int64_t max_gap_ms = 3'600'000;
   Flags excluded;  // how the daily figures treat flags (for the markers)
   Flags bridged;
-  stats::Conversion units;     // discharge shown = stored * units.flow_factor
-  std::string stage_symbol;    // "m", "cm", "ft"...
+  stats::Conversion units;   // discharge shown = stored * units.flow_factor
+  std::string stage_symbol;  // "m", "cm", "ft"...
 };
 
 // REQUIRES: from_ms < to_ms; readings in time order.

@@ -89,9 +89,8 @@ struct PeriodTotal {
 
 // One entry per period that overlaps [from, to], in order. `water_year_start_month` is used for
 // PeriodKind::water_year only. REQUIRES: `days` in day order; from <= to.
-std::vector<PeriodTotal> totals(std::span<const DayFigures> days, Day from, Day to,
-                                PeriodKind kind, int water_year_start_month,
-                                const daily::DayCalendar& calendar);
+std::vector<PeriodTotal> totals(std::span<const DayFigures> days, Day from, Day to, PeriodKind kind,
+                                int water_year_start_month, const daily::DayCalendar& calendar);
 
 // Stored flows and volumes (the configuration's unit system) into the units a person asked for.
 struct Conversion {

@@ -70,7 +70,7 @@ class StreamReader {
   std::optional<HeldLine> held_;
   bool skipping_ = false;
   bool skipped_to_line_end_ = true;  // false: the skip stopped after a line finish() processed
-  Result<void> status_;  // the first store failure, sticky
+  Result<void> status_;              // the first store failure, sticky
 };
 
 }  // namespace stagewell

@@ -80,17 +80,30 @@ LinearAxis linear_axis(double low, double high, int target, bool include_zero) {
 }
 
 LogAxis log_axis(double low, double high) {
+  // Bounds at 1, 2 or 5 times a power of ten around the data (not whole decades, which would
+  // flatten a narrow curve); ticks at every such value inside, and at 3, 4, 6, 7, 8 and 9 too when
+  // the axis spans less than one decade.
+  const auto candidates = [](double e) {
+    const double p = std::pow(10.0, e);
+    return std::array<double, 3>{p, 2 * p, 5 * p};
+  };
   LogAxis axis;
-  const double lo_exp = std::floor(std::log10(low) + 1e-12);
-  const double hi_exp = std::max(lo_exp + 1, std::ceil(std::log10(high) - 1e-12));
-  axis.low = std::pow(10.0, lo_exp);
-  axis.high = std::pow(10.0, hi_exp);
-  const bool short_range = hi_exp - lo_exp <= 2;
-  for (double e = lo_exp; e <= hi_exp; e += 1) {
-    for (const double multiple : {1.0, 2.0, 5.0}) {
-      if (multiple != 1.0 && (!short_range || e == hi_exp)) continue;
-      const double value = multiple * std::pow(10.0, e);
-      const double step = std::pow(10.0, e);
+  axis.low = 0.0;
+  axis.high = 0.0;
+  for (double e = std::floor(std::log10(low)) - 1; e <= std::ceil(std::log10(high)) + 1; e += 1) {
+    for (const double v : candidates(e)) {
+      if (v <= low * (1 + 1e-12)) axis.low = v;
+      if (axis.high == 0.0 && v >= high * (1 - 1e-12) && v > axis.low) axis.high = v;
+    }
+  }
+  const bool fine = axis.high / axis.low < 10.0 * (1 + 1e-12);
+  for (double e = std::floor(std::log10(axis.low)) - 1; e <= std::ceil(std::log10(axis.high));
+       e += 1) {
+    const double step = std::pow(10.0, e);
+    for (int m = 1; m <= 9; ++m) {
+      if (!fine && m != 1 && m != 2 && m != 5) continue;
+      const double value = m * step;
+      if (value < axis.low * (1 - 1e-9) || value > axis.high * (1 + 1e-9)) continue;
       axis.ticks.push_back({value, tick_label(value, step)});
     }
   }
@@ -118,17 +131,19 @@ std::vector<TimeTick> time_ticks(std::int64_t from_ms, std::int64_t to_ms, const
       at = cctz::civil_second(day) + (into_day / step.count) * step.count;
       break;
     }
-    case Unit::day: at = cctz::civil_second(cctz::civil_day(first)); break;
+    case Unit::day:
+      at = cctz::civil_second(cctz::civil_day(first));
+      break;
     case Unit::month: {
       const cctz::civil_month month(first);
-      at = cctz::civil_second(cctz::civil_month(month.year(), ((month.month() - 1) / step.count) *
-                                                                 step.count + 1));
+      at = cctz::civil_second(
+          cctz::civil_month(month.year(), ((month.month() - 1) / step.count) * step.count + 1));
       break;
     }
     case Unit::year: {
       const auto year = cctz::civil_year(first).year();
-      at = cctz::civil_second(cctz::civil_year(year - ((year % step.count) + step.count) %
-                                                          step.count));
+      at = cctz::civil_second(
+          cctz::civil_year(year - ((year % step.count) + step.count) % step.count));
       break;
     }
   }
@@ -157,15 +172,25 @@ std::vector<TimeTick> time_ticks(std::int64_t from_ms, std::int64_t to_ms, const
         case Unit::month:
           tick.label = fmt::format("{:04d}-{:02d}", shown.year(), shown.month());
           break;
-        case Unit::year: tick.label = fmt::format("{:04d}", shown.year()); break;
+        case Unit::year:
+          tick.label = fmt::format("{:04d}", shown.year());
+          break;
       }
       ticks.push_back(std::move(tick));
     }
     switch (step.unit) {
-      case Unit::second: at += step.count; break;
-      case Unit::day: at = cctz::civil_second(cctz::civil_day(at) + step.count); break;
-      case Unit::month: at = cctz::civil_second(cctz::civil_month(at) + step.count); break;
-      case Unit::year: at = cctz::civil_second(cctz::civil_year(at) + step.count); break;
+      case Unit::second:
+        at += step.count;
+        break;
+      case Unit::day:
+        at = cctz::civil_second(cctz::civil_day(at) + step.count);
+        break;
+      case Unit::month:
+        at = cctz::civil_second(cctz::civil_month(at) + step.count);
+        break;
+      case Unit::year:
+        at = cctz::civil_second(cctz::civil_year(at) + step.count);
+        break;
     }
   }
   return ticks;

@@ -26,9 +26,9 @@ struct LinearAxis {
 LinearAxis linear_axis(double low, double high, int target, bool include_zero);
 
 struct LogAxis {
-  double low = 1.0;  // powers of ten around the data
-  double high = 10.0;
-  std::vector<Tick> ticks;  // at 1, 2 and 5 times each power of ten when the range is short
+  double low = 1.0;  // 1, 2 or 5 times a power of ten, at or below the data
+  double high = 10.0;  // the same, at or above
+  std::vector<Tick> ticks;
 };
 
 // REQUIRES: 0 < low <= high.

@@ -45,8 +45,7 @@ std::int64_t DayCalendar::start_ms(Day day) const {
   const auto found = zone_.cctz_zone().lookup(cctz::civil_second(day));
   // Midnight normally exists once. Where a DST change skips it, the day starts at the change
   // (`trans`, the first instant that exists); where midnight occurs twice, at the first (`pre`).
-  const auto start =
-      found.kind == cctz::time_zone::civil_lookup::SKIPPED ? found.trans : found.pre;
+  const auto start = found.kind == cctz::time_zone::civil_lookup::SKIPPED ? found.trans : found.pre;
   return static_cast<std::int64_t>(start.time_since_epoch().count()) * 1000;
 }
 

@@ -37,7 +37,7 @@ std::optional<double> flow_exceeded(std::span<const double> flows, double p) {
   // The i-th largest (1-based) sits at p_i = i / (n + 1): position h = p (n + 1).
   const double h = p * static_cast<double>(n + 1);
   if (h < 1.0 || h > static_cast<double>(n)) return std::nullopt;  // beyond the record
-  const auto i = static_cast<std::size_t>(std::floor(h));            // 1 <= i <= n
+  const auto i = static_cast<std::size_t>(std::floor(h));          // 1 <= i <= n
   if (i == n) return sorted[n - 1];
   const double fraction = h - static_cast<double>(i);
   return sorted[i - 1] + fraction * (sorted[i] - sorted[i - 1]);
@@ -80,12 +80,10 @@ Conversion Conversion::make(units::System system, std::optional<units::Flow> flo
   // Stored values are in the system's own units: m^3/s and m^3, or ft^3/s and ft^3.
   const double stored_m3 = system == units::System::metric ? 1.0 : units::cubic_foot_m3;
   // The stored unit itself converts exactly (factor 1), not through m^3 and back.
-  c.flow_factor = c.flow == units::default_flow(system)
-                      ? 1.0
-                      : stored_m3 / units::to_m3_per_s(c.flow);
-  c.volume_factor = c.volume == units::default_volume(system)
-                        ? 1.0
-                        : stored_m3 / units::to_m3(c.volume);
+  c.flow_factor =
+      c.flow == units::default_flow(system) ? 1.0 : stored_m3 / units::to_m3_per_s(c.flow);
+  c.volume_factor =
+      c.volume == units::default_volume(system) ? 1.0 : stored_m3 / units::to_m3(c.volume);
   return c;
 }
 

@@ -41,9 +41,9 @@ std::string duration_svg(const stats::FlowDuration& duration, const DurationSpec
   const LogAxis axis = log_axis(any ? low : 0.1, any ? high : 1.0);
   const Panel panel{70, 520, 0.0, 100.0, std::log10(axis.low), std::log10(axis.high)};
 
-  draw_title(svg, spec.title,
-             fmt::format("Flow-duration curve, {}, {} complete days", spec.period,
-                         duration.curve.size()));
+  draw_title(
+      svg, spec.title,
+      fmt::format("Flow-duration curve, {}, {} complete days", spec.period, duration.curve.size()));
   svg.begin_group("x-axis");
   for (int percent = 0; percent <= 100; percent += 10) {
     const double x = panel.x(percent);
@@ -90,9 +90,10 @@ std::string duration_svg(const stats::FlowDuration& duration, const DurationSpec
   svg.text({kLeft, panel.bottom() + 66},
            fmt::format("Flow exceeded ({}): {}", units::symbol(spec.units.flow), listed),
            Anchor::start, kFontSize - 1);
-  std::string note = fmt::format("Weibull plotting position m/(n+1), ties at their mean rank; {} "
-                                 "days with some missing time left out",
-                                 duration.days_left_out);
+  std::string note = fmt::format(
+      "Weibull plotting position m/(n+1), ties at their mean rank; {} "
+      "days with some missing time left out",
+      duration.days_left_out);
   if (zero_days > 0) note += fmt::format("; {} days of zero flow not shown (log scale)", zero_days);
   svg.text({kLeft, panel.bottom() + 84}, note, Anchor::start, kFontSize - 1);
   if (!any) {

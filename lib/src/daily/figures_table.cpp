@@ -21,8 +21,7 @@ std::optional<std::int64_t> column_optional_int64(const sqlite::Statement& s, in
 
 Result<void> delete_flag_counts(sqlite::Connection& connection, SiteKey site,
                                 std::string_view day) {
-  auto erase =
-      connection.cached("DELETE FROM daily_flag_counts WHERE site_key = ?1 AND day = ?2");
+  auto erase = connection.cached("DELETE FROM daily_flag_counts WHERE site_key = ?1 AND day = ?2");
   if (!erase) return std::unexpected(erase.error());
   (*erase)->bind(1, site.value);
   (*erase)->bind(2, day);
@@ -69,8 +68,8 @@ Result<void> upsert_figures(sqlite::Connection& connection, SiteKey site, std::s
   return s.run();
 }
 
-Result<void> insert_flag_counts(sqlite::Connection& connection, SiteKey site,
-                                std::string_view day, const DayFigures& f) {
+Result<void> insert_flag_counts(sqlite::Connection& connection, SiteKey site, std::string_view day,
+                                const DayFigures& f) {
   for (const FlagCount& count : f.flag_counts) {
     auto insert = connection.cached(
         "INSERT INTO daily_flag_counts (site_key, day, bit, readings) VALUES (?1, ?2, ?3, ?4)");
@@ -221,8 +220,8 @@ Result<std::vector<DayFigures>> read_days(sqlite::Connection& connection, SiteKe
 
 Result<std::optional<std::pair<Day, Day>>> stored_day_range(sqlite::Connection& connection,
                                                             SiteKey site) {
-  auto select = connection.cached(
-      "SELECT min(day), max(day) FROM daily_figures WHERE site_key = ?1");
+  auto select =
+      connection.cached("SELECT min(day), max(day) FROM daily_figures WHERE site_key = ?1");
   if (!select) return std::unexpected(select.error());
   (*select)->bind(1, site.value);
   auto row = (*select)->step();

@@ -22,8 +22,8 @@ constexpr int kColumnsPerPixel = 2;  // decimation: buckets per pixel of width
 enum class Mark { missing, bridged, used };
 
 struct MarkStyle {
-  const char* name;      // legend text
-  const char* colour;    // print-safe, told apart by shape too
+  const char* name;    // legend text
+  const char* colour;  // print-safe, told apart by shape too
 };
 
 constexpr MarkStyle kMarkStyles[] = {
@@ -70,8 +70,8 @@ std::vector<std::vector<Point>> runs_of(
   long bucket_index = 0;
   auto flush_bucket = [&] {
     if (bucket.empty()) return;
-    const auto [low, high] = std::minmax_element(
-        bucket.begin(), bucket.end(), [](Point a, Point b) { return a.y < b.y; });
+    const auto [low, high] = std::minmax_element(bucket.begin(), bucket.end(),
+                                                 [](Point a, Point b) { return a.y < b.y; });
     std::vector<std::size_t> keep{0, static_cast<std::size_t>(low - bucket.begin()),
                                   static_cast<std::size_t>(high - bucket.begin()),
                                   bucket.size() - 1};
@@ -143,10 +143,18 @@ std::string hydrograph_svg(const std::vector<PlotReading>& readings, const Hydro
       linear_axis(flow.any() ? flow.low : 0, flow.any() ? flow.high : 1, 6, true);
   const LinearAxis stage_axis =
       linear_axis(stage.any() ? stage.low : 0, stage.any() ? stage.high : 1, 4, false);
-  const Panel flow_panel{70, 330, static_cast<double>(spec.from_ms),
-                         static_cast<double>(spec.to_ms), flow_axis.low, flow_axis.high};
-  const Panel stage_panel{425, 170, static_cast<double>(spec.from_ms),
-                          static_cast<double>(spec.to_ms), stage_axis.low, stage_axis.high};
+  const Panel flow_panel{70,
+                         330,
+                         static_cast<double>(spec.from_ms),
+                         static_cast<double>(spec.to_ms),
+                         flow_axis.low,
+                         flow_axis.high};
+  const Panel stage_panel{425,
+                          170,
+                          static_cast<double>(spec.from_ms),
+                          static_cast<double>(spec.to_ms),
+                          stage_axis.low,
+                          stage_axis.high};
 
   draw_title(svg, spec.title, fmt::format("{}, {} readings", spec.period, readings.size()));
   const auto ticks = plot_detail::time_ticks(spec.from_ms, spec.to_ms, spec.zone, 8);

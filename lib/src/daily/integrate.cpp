@@ -63,12 +63,12 @@ DayFigures compute_day(std::span<const DayReading> readings, Day day, const DayC
   const std::int64_t end = out.end_ms;
 
   // Only readings within max_gap of the day can bound an interval that reaches into it.
-  const auto first = std::lower_bound(
-      readings.begin(), readings.end(), start - rules.max_gap_ms,
-      [](const DayReading& r, std::int64_t t) { return r.time_ms < t; });
+  const auto first =
+      std::lower_bound(readings.begin(), readings.end(), start - rules.max_gap_ms,
+                       [](const DayReading& r, std::int64_t t) { return r.time_ms < t; });
 
   std::array<std::int64_t, 32> per_bit{};
-  double volume = 0.0;  // m^3 or ft^3
+  double volume = 0.0;                   // m^3 or ft^3
   const DayReading* previous = nullptr;  // the last used reading, if no excluded one came since
   for (auto it = first; it != readings.end() && it->time_ms <= end + rules.max_gap_ms; ++it) {
     const DayReading& reading = *it;

@@ -1,9 +1,9 @@
 // Keeping the daily figures current: which days a batch touched, the readings of those days, and
 // recomputing them.
-#include "stagewell/daily_keeper.hpp"
-
 #include <algorithm>
 #include <limits>
+
+#include "stagewell/daily_keeper.hpp"
 
 namespace stagewell::daily {
 namespace {
@@ -30,16 +30,28 @@ Result<DailyKeeper> DailyKeeper::create(const Config& config) {
 Result<void> DailyKeeper::add_site(Store& store, SiteKey key, const SiteConfig& site) {
   Site& entry = sites_[key];
   entry.rules = rules_for(site, daily_);
-  entry.stored_until_ms.reset();  // learnt at the first update
   const std::string settings = settings_text(calendar_, units_, entry.rules);
   auto current = figures_current(store.connection(), key, settings);
   if (!current) return std::unexpected(current.error());
-  if (*current) return {};
-  auto batch = store.begin();
-  if (!batch) return std::unexpected(batch.error());
-  auto done = recompute_site(batch->connection(), key, calendar_, entry.rules, settings);
-  if (!done) return done;  // the batch rolls back as it goes out of scope
-  return batch->commit();
+  if (!*current) {
+    auto batch = store.begin();
+    if (!batch) return std::unexpected(batch.error());
+    auto done = recompute_site(batch->connection(), key, calendar_, entry.rules, settings);
+    if (!done) return done;  // the batch rolls back as it goes out of scope
+    if (auto committed = batch->commit(); !committed) return committed;
+  }
+  // What is stored now, so that the first batch need not read its own readings back. The version
+  // is read first: a commit by another connection after it shows at the next update.
+  auto version = store.connection().query_int64("PRAGMA data_version");
+  if (!version) return std::unexpected(version.error());
+  if (data_version_ && *data_version_ != *version) {
+    for (auto& [other_key, other] : sites_) other.stored_until_ms.reset();
+  }
+  data_version_ = *version;
+  auto latest = latest_reading_ms(store.connection(), key);
+  if (!latest) return std::unexpected(latest.error());
+  entry.stored_until_ms = *latest;
+  return {};
 }
 
 void DailyKeeper::stored(SiteKey site, const DayReading& reading) {
@@ -57,7 +69,8 @@ Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Si
   // Up to the latest reading stored before this batch the database has everything, this batch's
   // readings and flags included. After it, every reading is one of this batch's (site.added,
   // sorted), which only need the flags added since they were stored.
-  const std::int64_t until = site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
+  const std::int64_t until =
+      site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
   if (from_ms <= until) {
     auto read = read_readings(connection, key, from_ms, std::min(to_ms, until), buffer_);
     if (!read) return read;
@@ -75,14 +88,17 @@ Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Si
 
 Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey key, Site& site) {
   auto& added = site.added;
-  std::stable_sort(added.begin(), added.end(), by_time);
+  if (!std::is_sorted(added.begin(), added.end(), by_time)) {  // usually in time order already
+    std::stable_sort(added.begin(), added.end(), by_time);
+  }
   // Flags added to this batch's own readings beyond stored_until_ms: the database has them, the
   // copies in `added` must get them too.
-  const std::int64_t until = site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
+  const std::int64_t until =
+      site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
   for (const auto& [time_ms, flags] : site.reflagged) {
     if (time_ms <= until) continue;
-    const auto it = std::lower_bound(added.begin(), added.end(), DayReading{time_ms, {}, {}},
-                                     by_time);
+    const auto it =
+        std::lower_bound(added.begin(), added.end(), DayReading{time_ms, {}, {}}, by_time);
     if (it != added.end() && it->time_ms == time_ms) it->flags |= flags;
   }
 
@@ -90,7 +106,9 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
   times.reserve(added.size() + site.reflagged.size());
   for (const auto& reading : added) times.push_back(reading.time_ms);
   for (const auto& [time_ms, flags] : site.reflagged) times.push_back(time_ms);
-  std::sort(times.begin(), times.end());
+  std::sort(times.begin() + static_cast<std::ptrdiff_t>(added.size()), times.end());
+  std::inplace_merge(times.begin(), times.begin() + static_cast<std::ptrdiff_t>(added.size()),
+                     times.end());
   const std::int64_t gap = site.rules.max_gap_ms;
 
   // The touched days, as runs of consecutive days. Times are sorted, so t - gap never falls before
@@ -125,7 +143,8 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
 
   // What the next batch may take as stored before it.
   if (site.stored_until_ms) {
-    if (!added.empty()) site.stored_until_ms = std::max(*site.stored_until_ms, added.back().time_ms);
+    if (!added.empty())
+      site.stored_until_ms = std::max(*site.stored_until_ms, added.back().time_ms);
   } else {
     auto latest = latest_reading_ms(connection, key);
     if (!latest) return std::unexpected(latest.error());

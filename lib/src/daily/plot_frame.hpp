@@ -12,7 +12,7 @@
 namespace stagewell::plot_detail {
 
 inline constexpr double kPageWidth = 1000;
-inline constexpr double kLeft = 90;    // room for the y tick labels and axis title
+inline constexpr double kLeft = 90;   // room for the y tick labels and axis title
 inline constexpr double kRight = 50;  // room for the last time label
 inline constexpr double kPlotWidth = kPageWidth - kLeft - kRight;
 inline constexpr double kFontSize = 13;  // readable when printed at A4/letter width
@@ -26,12 +26,8 @@ struct Panel {
   double y_low = 0.0;  // data at the bottom and top edges (log10 of it on a log axis)
   double y_high = 1.0;
 
-  double x(double value) const {
-    return kLeft + (value - x_low) / (x_high - x_low) * kPlotWidth;
-  }
-  double y(double value) const {
-    return top + (1.0 - (value - y_low) / (y_high - y_low)) * height;
-  }
+  double x(double value) const { return kLeft + (value - x_low) / (x_high - x_low) * kPlotWidth; }
+  double y(double value) const { return top + (1.0 - (value - y_low) / (y_high - y_low)) * height; }
   double bottom() const { return top + height; }
 };
 

@@ -39,11 +39,11 @@ Result<void> store_settings(sqlite::Connection& connection, SiteKey site,
 
 }  // namespace
 
-std::string settings_text(const DayCalendar& calendar, units::System units,
-                          const DayRules& rules) {
+std::string settings_text(const DayCalendar& calendar, units::System units, const DayRules& rules) {
   // Flag and zone names are plain ASCII without quotes (validated), so no JSON escaping is needed.
   return fmt::format(
-      R"({{"method":{},"timezone":"{}","units":"{}","max_gap_ms":{},"excluded":"{}","bridged":"{}"}})",
+      R"({{"method":{},"timezone":"{}","units":"{}","max_gap_ms":{},)"
+      R"("excluded":"{}","bridged":"{}"}})",
       kMethodVersion, calendar.zone().name(), units::name(units), rules.max_gap_ms,
       rules.excluded.joined(), rules.bridged.joined());
 }

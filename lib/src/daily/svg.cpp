@@ -11,11 +11,20 @@ std::string xml_escape(std::string_view text) {
   out.reserve(text.size());
   for (const char c : text) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      default: out += c;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
@@ -75,13 +84,13 @@ void Svg::text(Point at, std::string_view content, Anchor anchor, double size, d
       anchor == Anchor::start ? "start" : (anchor == Anchor::middle ? "middle" : "end");
   std::string transform;
   if (rotate != 0) {
-    transform = fmt::format(" transform=\"rotate({} {} {})\"", coord(rotate), coord(at.x),
-                            coord(at.y));
+    transform =
+        fmt::format(" transform=\"rotate({} {} {})\"", coord(rotate), coord(at.x), coord(at.y));
   }
-  out_ += fmt::format(
-      "<text x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"{}\"{}{}>{}</text>\n", coord(at.x),
-      coord(at.y), coord(size), anchor_name, transform,
-      style.empty() ? std::string() : fmt::format(" style=\"{}\"", style), xml_escape(content));
+  out_ += fmt::format("<text x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"{}\"{}{}>{}</text>\n",
+                      coord(at.x), coord(at.y), coord(size), anchor_name, transform,
+                      style.empty() ? std::string() : fmt::format(" style=\"{}\"", style),
+                      xml_escape(content));
 }
 
 void Svg::begin_group(std::string_view cls) {

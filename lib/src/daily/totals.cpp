@@ -87,9 +87,8 @@ PeriodTotal total_of(std::span<const DayFigures> days, const Period& period,
 
 }  // namespace
 
-std::vector<PeriodTotal> totals(std::span<const DayFigures> days, Day from, Day to,
-                                PeriodKind kind, int water_year_start_month,
-                                const daily::DayCalendar& calendar) {
+std::vector<PeriodTotal> totals(std::span<const DayFigures> days, Day from, Day to, PeriodKind kind,
+                                int water_year_start_month, const daily::DayCalendar& calendar) {
   std::vector<PeriodTotal> out;
   auto next = std::lower_bound(days.begin(), days.end(), from,
                                [](const DayFigures& d, Day day) { return d.day < day; });

@@ -186,6 +186,14 @@ Result<void> DropFolder::finish_current() {
   }
   spdlog::info("{}: read to the end ({} lines), moved to {}", from.string(), current_->lines(),
                to.string());
+  // The stored progress named the file by device and inode. Once the file in done/ is deleted,
+  // its inode may be given to a new file dropped under the same name, which must not then be
+  // taken as already read: forget it (committed with the next batch; until then the file in
+  // done/ still holds the inode).
+  if (auto forgot = ingestor_.progress(absolute_key("folder", from), {"", 0, ingestor_.now_ms()});
+      !forgot) {
+    return forgot;
+  }
   current_.reset();
   ++files_done_;
   return {};
@@ -330,6 +338,10 @@ Result<void> TailedFile::start(bool resume) {
   std::string at_path;  // identity of the file at the path; empty when there is none
   if (file) {
     if (::fstat(file->fd(), &status) != 0) return os_error("cannot stat", spec_.path);
+    if (!S_ISREG(status.st_mode)) {
+      return fail(ErrorKind::invalid_argument,
+                  fmt::format("{} is not a regular file", spec_.path.string()));
+    }
     at_path = identity_of(status);
   }
 
@@ -403,9 +415,10 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
     auto changed = rewritten(status.st_size);
     if (!changed) return std::unexpected(changed.error());
     if (*changed) {
-      spdlog::warn("{}: truncated or rewritten ({} bytes now, {} were read); reading it again "
-                   "from the start",
-                   spec_.path.string(), static_cast<std::int64_t>(status.st_size), offset_);
+      spdlog::warn(
+          "{}: truncated or rewritten ({} bytes now, {} were read); reading it again "
+          "from the start",
+          spec_.path.string(), static_cast<std::int64_t>(status.st_size), offset_);
       reset();
       if (auto started = start(/*resume=*/false); !started) return std::unexpected(started.error());
       if (!file_) return false;

@@ -188,13 +188,13 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
   // it is rejected before it reaches the checks. Only a reading inside the site's stage range gets
   // a discharge, and below the section's top the rating's discharges are finite.
   if (const double depth = site.config->depth_for_stage(record.stage, system);
-      !std::isfinite(depth) || (within_stage_range(site.config->checks, record.stage) &&
-                                depth > site.top_depth &&
-                                !std::isfinite(site.channel->discharge(depth)))) {
-    return reject("non_finite_stage",
-                  fmt::format("stage {} gives a depth or discharge too large to be a number",
-                              record.stage),
-                  at);
+      !std::isfinite(depth) ||
+      (within_stage_range(site.config->checks, record.stage) && depth > site.top_depth &&
+       !std::isfinite(site.channel->discharge(depth)))) {
+    return reject(
+        "non_finite_stage",
+        fmt::format("stage {} gives a depth or discharge too large to be a number", record.stage),
+        at);
   }
 
   const CheckResult checked = site.checker.check(record.time_ms, record.stage, state_->clock());

@@ -54,6 +54,7 @@ void StreamReader::skip(std::string_view chunk) {
   note_line_ends(chunk);
   skipping_ = false;
   skipped_to_line_end_ = splitter_.pending_bytes() == 0;
+  consumed_bytes_ = fed_bytes_;  // skipped bytes were consumed before, by definition
 }
 
 void StreamReader::note_line_ends(std::string_view chunk) {
