@@ -50,7 +50,9 @@ class DailyKeeper {
   // changes. On failure the caller must roll back (and call forget()).
   Result<void> update(sqlite::Connection& connection);
 
-  // Forgets the changes: the batch was rolled back, or its commit failed.
+  // Forgets the changes and what is known of the stored readings: the batch was rolled back, its
+  // commit failed, or stored readings were rewritten on this connection by something other than
+  // this keeper (another connection's commits are noticed by themselves, via data_version).
   void forget();
 
   const DayCalendar& calendar() const { return calendar_; }
@@ -63,11 +65,19 @@ class DailyKeeper {
     // The latest reading time in the database before the open batch; nullopt when unknown (then
     // everything is read back).
     std::optional<std::int64_t> stored_until_ms;
+    // A copy of the stored readings of [tail_from_ms, stored_until_ms] (sorted, flags current),
+    // kept from the last update so that readings arriving in time order never read the open day
+    // back from the database. Valid only while stored_until_ms is known and tail_from_ms is set.
+    std::vector<DayReading> tail;
+    std::optional<std::int64_t> tail_from_ms;
   };
   DailyKeeper(DayCalendar calendar, units::System units, DailySpec daily)
       : calendar_(std::move(calendar)), units_(units), daily_(daily) {}
   Result<void> update_site(sqlite::Connection& connection, SiteKey key, Site& site);
   // The readings of [from_ms, to_ms] as the open transaction holds them, into buffer_.
+  // Keeps, as the site's tail, the readings of buffer_ the next in-order batch will need.
+  void keep_tail(Site& site, std::int64_t gathered_from_ms, std::int64_t gathered_to_ms,
+                 bool gathered);
   Result<void> gather(sqlite::Connection& connection, SiteKey key, Site& site, std::int64_t from_ms,
                       std::int64_t to_ms);
 

@@ -45,12 +45,17 @@ Result<void> DailyKeeper::add_site(Store& store, SiteKey key, const SiteConfig& 
   auto version = store.connection().query_int64("PRAGMA data_version");
   if (!version) return std::unexpected(version.error());
   if (data_version_ && *data_version_ != *version) {
-    for (auto& [other_key, other] : sites_) other.stored_until_ms.reset();
+    for (auto& [other_key, other] : sites_) {
+      other.stored_until_ms.reset();
+      other.tail_from_ms.reset();
+    }
   }
   data_version_ = *version;
   auto latest = latest_reading_ms(store.connection(), key);
   if (!latest) return std::unexpected(latest.error());
   entry.stored_until_ms = *latest;
+  entry.tail.clear();  // nothing read yet: the first update reads the open day back
+  entry.tail_from_ms.reset();
   return {};
 }
 
@@ -71,7 +76,14 @@ Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Si
   // sorted), which only need the flags added since they were stored.
   const std::int64_t until =
       site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
-  if (from_ms <= until) {
+  if (from_ms <= until && site.tail_from_ms && from_ms >= *site.tail_from_ms) {
+    // In time order: the stored part is in the tail (update_site() applied the batch's flags).
+    const auto first =
+        std::lower_bound(site.tail.begin(), site.tail.end(), DayReading{from_ms, {}, {}}, by_time);
+    const auto last = std::upper_bound(first, site.tail.end(),
+                                       DayReading{std::min(to_ms, until), {}, {}}, by_time);
+    buffer_.assign(first, last);
+  } else if (from_ms <= until) {
     auto read = read_readings(connection, key, from_ms, std::min(to_ms, until), buffer_);
     if (!read) return read;
   } else {
@@ -96,11 +108,13 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
   const std::int64_t until =
       site.stored_until_ms.value_or(std::numeric_limits<std::int64_t>::max());
   for (const auto& [time_ms, flags] : site.reflagged) {
-    if (time_ms <= until) continue;
+    auto& copies = time_ms <= until ? site.tail : added;  // the tail holds times up to `until`
     const auto it =
-        std::lower_bound(added.begin(), added.end(), DayReading{time_ms, {}, {}}, by_time);
-    if (it != added.end() && it->time_ms == time_ms) it->flags |= flags;
+        std::lower_bound(copies.begin(), copies.end(), DayReading{time_ms, {}, {}}, by_time);
+    if (it != copies.end() && it->time_ms == time_ms) it->flags |= flags;
   }
+  // A late reading (at or before `until`) is in the database but not in the tail.
+  if (!added.empty() && added.front().time_ms <= until) site.tail_from_ms.reset();
 
   std::vector<std::int64_t> times;
   times.reserve(added.size() + site.reflagged.size());
@@ -128,10 +142,13 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
     listed_until_ms = calendar_.start_ms(runs.back().second + 1);
   }
 
+  std::int64_t gathered_from_ms = 0;  // the range the last run gathered into buffer_
+  std::int64_t gathered_to_ms = 0;
   for (const auto& [first, last] : runs) {
     // One gathering covers the run and the max_gap around it.
-    auto read = gather(connection, key, site, calendar_.start_ms(first) - gap,
-                       calendar_.start_ms(last + 1) + gap);
+    gathered_from_ms = calendar_.start_ms(first) - gap;
+    gathered_to_ms = calendar_.start_ms(last + 1) + gap;
+    auto read = gather(connection, key, site, gathered_from_ms, gathered_to_ms);
     if (!read) return read;
     for (Day day = first; day <= last; ++day) {
       if (auto done = write_day(connection, key, compute_day(buffer_, day, calendar_, site.rules));
@@ -150,9 +167,31 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
     if (!latest) return std::unexpected(latest.error());
     site.stored_until_ms = *latest;
   }
+  keep_tail(site, gathered_from_ms, gathered_to_ms, !runs.empty());
   added.clear();
   site.reflagged.clear();
   return {};
+}
+
+void DailyKeeper::keep_tail(Site& site, std::int64_t gathered_from_ms, std::int64_t gathered_to_ms,
+                            bool gathered) {
+  // The next batch's readings come after stored_until_ms. Its first touched day is then no
+  // earlier than the day of stored_until_ms - max_gap, and it gathers from max_gap before that
+  // day's start: the tail must reach back to there. The last run's buffer_ holds every reading of
+  // the range it gathered, so it serves when that range covers the tail's.
+  const std::int64_t until = *site.stored_until_ms;
+  const std::int64_t gap = site.rules.max_gap_ms;
+  const std::int64_t from = calendar_.start_ms(calendar_.day_of(until - gap)) - gap;
+  if (!gathered || gathered_from_ms > from || gathered_to_ms < until) {
+    site.tail.clear();
+    site.tail_from_ms.reset();
+    return;
+  }
+  const auto first =
+      std::lower_bound(buffer_.begin(), buffer_.end(), DayReading{from, {}, {}}, by_time);
+  const auto last = std::upper_bound(first, buffer_.end(), DayReading{until, {}, {}}, by_time);
+  site.tail.assign(first, last);
+  site.tail_from_ms = from;
 }
 
 Result<void> DailyKeeper::update(sqlite::Connection& connection) {
@@ -164,7 +203,10 @@ Result<void> DailyKeeper::update(sqlite::Connection& connection) {
     return std::unexpected(version.error());
   }
   if (data_version_ != *version) {
-    for (auto& [key, site] : sites_) site.stored_until_ms.reset();
+    for (auto& [key, site] : sites_) {
+      site.stored_until_ms.reset();
+      site.tail_from_ms.reset();
+    }
   }
   for (auto& [key, site] : sites_) {
     if (site.added.empty() && site.reflagged.empty()) continue;
@@ -182,6 +224,8 @@ void DailyKeeper::forget() {
     site.added.clear();
     site.reflagged.clear();
     site.stored_until_ms.reset();  // the batch may have moved it and then been rolled back
+    site.tail.clear();
+    site.tail_from_ms.reset();
   }
 }
 
