@@ -94,16 +94,25 @@ void check_equal(const std::vector<DayFigures>& got, const std::vector<DayFigure
   }
 }
 
-TEST_CASE("late readings and late flags: the kept figures equal a full recomputation") {
+// A database with one site and a keeper for it, as the tests below start.
+struct KeptSite {
   test::TempDir dir;
   Store store = test::open_store(dir.db());
-  const auto site = test::add_site(store, "gauge");
-  const Config config = denver_config();
-  auto keeper = DailyKeeper::create(config);
-  REQUIRE(keeper.has_value());
-  REQUIRE(keeper->add_site(store, site.key, config.sites.front()).has_value());
-  const DayRules rules = rules_for(config.sites.front(), config.daily);
+  test::Site site = test::add_site(store, "gauge");
+  Config config = denver_config();
+  DayRules rules = rules_for(config.sites.front(), config.daily);
+  std::optional<DailyKeeper> keeper = make_keeper();
 
+  std::optional<DailyKeeper> make_keeper() {
+    auto made = DailyKeeper::create(config);
+    REQUIRE(made.has_value());
+    REQUIRE(made->add_site(store, site.key, config.sites.front()).has_value());
+    return std::move(*made);
+  }
+};
+
+TEST_CASE_FIXTURE(KeptSite,
+                  "late readings and late flags: the kept figures equal a full recomputation") {
   const auto all = sample(site);
   // First in time order every reading but each 7th; then the held-back ones newest first, in three
   // late batches; then spike flags on readings committed long before.
@@ -168,19 +177,12 @@ TEST_CASE("late readings and late flags: the kept figures equal a full recomputa
   }
 }
 
-TEST_CASE("in-order batches that flag readings of the batch before: equal after every batch") {
+TEST_CASE_FIXTURE(
+    KeptSite, "in-order batches that flag readings of the batch before: equal after every batch") {
   // Readings in time order are taken from the keeper's copy of the open day (its tail) rather than
   // read back; flags added to readings of an earlier batch must reach that copy too, and a
   // reading held back from one batch and sent with the next (late, inside the copy's period) must
   // not be missed.
-  test::TempDir dir;
-  Store store = test::open_store(dir.db());
-  const auto site = test::add_site(store, "gauge");
-  const Config config = denver_config();
-  auto keeper = DailyKeeper::create(config);
-  REQUIRE(keeper.has_value());
-  REQUIRE(keeper->add_site(store, site.key, config.sites.front()).has_value());
-  const DayRules rules = rules_for(config.sites.front(), config.daily);
   const auto all = sample(site);
   const std::size_t step = 37;
   for (std::size_t start = 0; start < all.size(); start += step) {
@@ -211,17 +213,9 @@ TEST_CASE("in-order batches that flag readings of the batch before: equal after 
   }
 }
 
-TEST_CASE("readings another connection committed in between are not missed") {
+TEST_CASE_FIXTURE(KeptSite, "readings another connection committed in between are not missed") {
   // The keeper takes a batch's readings that are newer than everything stored from memory; a
   // second writer's readings in between must make it read the database again.
-  test::TempDir dir;
-  Store store = test::open_store(dir.db());
-  const auto site = test::add_site(store, "gauge");
-  const Config config = denver_config();
-  auto keeper = DailyKeeper::create(config);
-  REQUIRE(keeper.has_value());
-  REQUIRE(keeper->add_site(store, site.key, config.sites.front()).has_value());
-  const DayRules rules = rules_for(config.sites.front(), config.daily);
   const auto all = sample(site);
   commit_batch(store, *keeper, slice(all, 0, 100));
   {
@@ -236,14 +230,7 @@ TEST_CASE("readings another connection committed in between are not missed") {
               full_recomputation(store, site.key, keeper->calendar(), rules));
 }
 
-TEST_CASE("a failure while updating the figures stores nothing of the batch") {
-  test::TempDir dir;
-  Store store = test::open_store(dir.db());
-  const auto site = test::add_site(store, "gauge");
-  const Config config = denver_config();
-  auto keeper = DailyKeeper::create(config);
-  REQUIRE(keeper.has_value());
-  REQUIRE(keeper->add_site(store, site.key, config.sites.front()).has_value());
+TEST_CASE_FIXTURE(KeptSite, "a failure while updating the figures stores nothing of the batch") {
   const auto all = sample(site);
   const auto first = slice(all, 0, 200);
   commit_batch(store, *keeper, first);
