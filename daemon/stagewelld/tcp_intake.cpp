@@ -157,6 +157,10 @@ void TcpIntake::on_line(const Line& raw_line) {
   if (const auto* record = std::get_if<Record>(&parsed)) {
     status_ = ingestor_->reading(*record, at);
     last_stored_line_ = line.number;
+    if (status_ && ingestor_->last_conflict()) {
+      // Another stage is stored for this site and time: kept in rejects, and the client told.
+      *replies_ += reply::error(line.number, "conflict", *ingestor_->last_conflict());
+    }
   } else if (const auto* rejected = std::get_if<LineReject>(&parsed)) {
     status_ = ingestor_->reject(name(rejected->kind), rejected->reason, at);
     last_stored_line_ = line.number;

@@ -12,7 +12,8 @@
 //   ok <n>                       lines 1..n are stored (readings, repeats of stored readings,
 //                                rejects kept in the database, header and comments)
 //   error <n> <kind> <reason>    line n was rejected (also kept in the database's rejects); sent
-//                                at once; it is covered by a later `ok`
+//                                at once; it is covered by a later `ok`. Kind `conflict`: the
+//                                site and time are stored with another stage, which is kept
 //   refused <what> <reason>      the connection is not taken ("auth" or "busy"); then closed
 //   closing <reason>             the service closes the connection; lines after the last `ok`
 //                                are not stored: send them again on a new connection

@@ -154,6 +154,24 @@ def run(checks, port, db, daemon):
     checks.check("... and adds no reading", len(t.stored(db)) == before, f"{before} -> {len(t.stored(db))}")
     c.close()
 
+    # --- a conflict: a stored site and time with another stage is rejected, and the client told --
+    row = good_rows[10]
+    changed = f"{float(row[2]) + 0.25:.3f}"
+    stored_q = t.stored(db)[t.key_of(row)]
+    c = t.Client(port)
+    c.send_lines(["site,time,stage", f"{row[0]},{row[1]},{changed}"])
+    last = c.wait_ok(2)
+    errors = c.errors()
+    checks.check("a second, different stage for a stored time gets `error 2 conflict`",
+                 last == 2 and len(errors) == 1 and errors[0].startswith("error 2 conflict "),
+                 f"{c.replies}")
+    checks.check("... the stored reading is kept unchanged",
+                 t.stored(db)[t.key_of(row)] == stored_q, "")
+    checks.check("... and the line is in rejects with its connection and line number",
+                 any(r[0].startswith("tcp 127.0.0.1:") and r[1] == "line 2" and r[2].startswith("conflict")
+                     for r in t.rejects(db)), f"{t.rejects(db)[-3:]}")
+    c.close()
+
     # --- a client that half-closes gets its final ok, then the service closes ---------------
     rows = t.readings(3, start_minute=700)
     c = t.Client(port)

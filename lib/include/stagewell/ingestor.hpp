@@ -14,6 +14,7 @@
 #include <functional>
 #include <map>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -97,6 +98,10 @@ class Ingestor {
   // Progress stored for a source (committed state).
   Result<std::optional<IngestProgress>> stored_progress(std::string_view source_key);
 
+  // The reason when the last reading() was a conflict (its site and time are stored with another
+  // stage, so it went to rejects as "conflict"); nullopt otherwise. For a socket source's reply.
+  const std::optional<std::string>& last_conflict() const { return last_conflict_; }
+
   const IngestCounts& counts() const { return counts_; }
   const Config& config() const;
   Store& store();
@@ -113,6 +118,7 @@ class Ingestor {
 
   std::unique_ptr<State> state_;
   IngestCounts counts_;
+  std::optional<std::string> last_conflict_;
 };
 
 }  // namespace stagewell

@@ -165,6 +165,7 @@ Result<WriteBatch*> Ingestor::batch() {
 }
 
 Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
+  last_conflict_.reset();
   const auto found = state_->sites.find(record.site);
   if (found == state_->sites.end()) {
     // The record parser checks sites; this guards callers that skip it.
@@ -271,6 +272,7 @@ Result<void> Ingestor::repeat(const Record& record, double stored_stage, const S
   if (!kept) return std::unexpected(kept.error());
   ++pending.rejected;
   ++pending.rejected_by_reason["conflict"];
+  last_conflict_ = reason;
   return {};
 }
 
