@@ -5,6 +5,8 @@ view as the page and the metrics read it.
   low_flow  a run of low stages raises once the hold is complete and clears above the clear level;
             the expected times are worked out here from the lines this script wrote and Manning's
             equation in closed form (daemon_support.manning), not taken from the program.
+  late      lines older than the newest stored reading raise nothing, even a run of them that
+            would complete the hold.
   stale     when lines stop coming, stale is raised at a clock tick at least `after` after the
             newest reading; it stays one open alarm across a restart, and a fresh line clears it.
 """
@@ -108,6 +110,17 @@ def main():
                         got_cleared == ds.iso(cleared), f"{got_cleared} vs {ds.iso(cleared)}")
                 R.close("value is the discharge that raised it", value, raised_q, 1e-3)
                 R.check("threshold is `below`", threshold == BELOW)
+
+            # Late lines (30 s after each of the first 11 readings, flagged late): low enough to
+            # raise low_flow had they been taken in arrival order (11 readings over 10 min), but
+            # late readings move no alarm.
+            late = [(t + 30_000, 0.05) for t in times[:11]]
+            ds.append(path, "".join(f"{ds.iso(t)},{s:.2f}\n" for t, s in late))
+            stored = ds.wait_until(lambda: ds.count(
+                db, "SELECT count(*) FROM discharge WHERE site = 'raceway'") == len(times) + 11, 30)
+            R.check("late lines stored", stored)
+            R.check("late lines raise no alarm", len(alarm_rows(db, "low_flow")) == 1,
+                    f"{alarm_rows(db, 'low_flow')}")
 
             # Lines have stopped: a tick at least STALE_S after the newest reading raises stale.
             stale = ds.wait_until(lambda: alarm_rows(db, "stale"), 40)
