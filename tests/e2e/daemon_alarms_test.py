@@ -23,6 +23,9 @@ MIN = 60_000
 WIDTH, N, SLOPE = 2.0, 0.014, 0.001
 BELOW, HYSTERESIS, HOLD_MIN = 0.2, 0.05, 10  # m^3/s, m^3/s, minutes
 STALE_S = 5
+# Every wait is bounded by this. Generous: on a loaded machine (ctest -j2 beside the big ingest
+# tests) a commit has been seen to take over a minute; a passing run waits only seconds.
+WAIT_S = 120
 
 CONFIG = f"""\
 units: metric
@@ -99,7 +102,7 @@ def main():
 
         with ds.Daemon(daemon_program, config, log).start() as daemon:
             ds.append(path, "".join(f"{ds.iso(t)},{s:.2f}\n" for t, s in zip(times, STAGES)))
-            rows = ds.wait_until(lambda: [r for r in alarm_rows(db, "low_flow") if r[1]], 30)
+            rows = ds.wait_until(lambda: [r for r in alarm_rows(db, "low_flow") if r[1]], WAIT_S)
             R.check("low_flow raised and cleared", rows, daemon.log()[-2000:])
             if rows:
                 R.check("one low_flow alarm", len(alarm_rows(db, "low_flow")) == 1)
@@ -117,13 +120,13 @@ def main():
             late = [(t + 30_000, 0.05) for t in times[:11]]
             ds.append(path, "".join(f"{ds.iso(t)},{s:.2f}\n" for t, s in late))
             stored = ds.wait_until(lambda: ds.count(
-                db, "SELECT count(*) FROM discharge WHERE site = 'raceway'") == len(times) + 11, 30)
+                db, "SELECT count(*) FROM discharge WHERE site = 'raceway'") == len(times) + 11, WAIT_S)
             R.check("late lines stored", stored)
             R.check("late lines raise no alarm", len(alarm_rows(db, "low_flow")) == 1,
                     f"{alarm_rows(db, 'low_flow')}")
 
             # Lines have stopped: a tick at least STALE_S after the newest reading raises stale.
-            stale = ds.wait_until(lambda: alarm_rows(db, "stale"), 40)
+            stale = ds.wait_until(lambda: alarm_rows(db, "stale"), WAIT_S)
             R.check("stale raised once readings stop", stale, daemon.log()[-2000:])
             if stale:
                 raised_text, cleared_text, value, threshold = stale[0]
@@ -136,21 +139,21 @@ def main():
             R.check("the raise is logged as a warning with units",
                     "alarm raised: site raceway low_flow" in log_text and "m³/s" in log_text)
             R.check("the clear is logged", "alarm cleared: site raceway low_flow" in log_text)
-            R.check("daemon stopped cleanly", daemon.stop() == 0)
+            R.check("daemon stopped cleanly", daemon.stop(WAIT_S) == 0)
 
         # Restart: the open stale alarm is restored, not raised again; a fresh line clears it.
         with ds.Daemon(daemon_program, config, log).start() as daemon:
-            started = ds.wait_until(lambda: daemon.log().count("started:") >= 2, 20)
+            started = ds.wait_until(lambda: daemon.log().count("started:") >= 2, WAIT_S)
             R.check("daemon restarted", started, daemon.log()[-2000:])
             fresh_ms = int(time.time()) * 1000
             ds.append(path, f"{ds.iso(fresh_ms)},0.30\n")
-            rows = ds.wait_until(lambda: [r for r in alarm_rows(db, "stale") if r[1]], 30)
+            rows = ds.wait_until(lambda: [r for r in alarm_rows(db, "stale") if r[1]], WAIT_S)
             R.check("a fresh reading clears stale", rows, daemon.log()[-2000:])
             R.check("stale was one alarm across the restart", len(alarm_rows(db, "stale")) == 1,
                     f"{alarm_rows(db, 'stale')}")
             R.check("the open alarms are those with cleared NULL",
                     ds.count(db, "SELECT count(*) FROM alarms WHERE cleared IS NULL") == 0)
-            R.check("daemon stopped cleanly", daemon.stop() == 0)
+            R.check("daemon stopped cleanly", daemon.stop(WAIT_S) == 0)
     ds.exit_with(R)
 
 
