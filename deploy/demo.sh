@@ -54,6 +54,7 @@ cat <<EOM
      sqlite3 -readonly $database "SELECT site, count(*), round(max(discharge), 3) AS peak_m3_s FROM discharge GROUP BY site;"
      sqlite3 -readonly $database "SELECT time, stage, discharge, flags FROM discharge WHERE site = 'raceway-a' ORDER BY unix_time DESC LIMIT 5;"
      sqlite3 -readonly $database "SELECT position, reason FROM rejects;"
+     sqlite3 -readonly $database "SELECT site, kind, raised, cleared, value, threshold FROM alarms;"
      $bin/stagewell flow --config $config --site brindlewick-creek --stage 2.6
 
    Discharge here is an estimate from Manning's equation: verify it with field measurements.

@@ -22,6 +22,9 @@ constexpr std::size_t kBytesPerPoll = 1 << 20;
 constexpr auto kIdlePoll = std::chrono::milliseconds(200);
 // Pause after a failure of the store before reading again.
 constexpr auto kRecoveryPause = std::chrono::seconds(1);
+// How often the alarms judged by the clock (stale sensors) are evaluated. A stale alarm is raised
+// at most this long after its `after` has passed.
+constexpr auto kAlarmTick = std::chrono::seconds(10);
 // How often a line of totals is logged while readings arrive.
 constexpr std::int64_t kReportEveryMs = 60'000;
 
@@ -71,7 +74,8 @@ Service::Service(boost::asio::io_context& io, std::string config_path, Logging& 
       config_path_(std::move(config_path)),
       logging_(logging),
       signals_(io),
-      poll_timer_(io) {}
+      poll_timer_(io),
+      alarm_timer_(io) {}
 
 Service::~Service() = default;
 
@@ -90,6 +94,7 @@ bool Service::start() {
   signals_.add(SIGHUP);
   wait_for_signal();
   schedule_poll(true);
+  schedule_alarm_tick();
   return true;
 }
 
@@ -118,8 +123,8 @@ bool Service::open(const Config& config) {
   }
   // ---- tcp sources (issue 5): listeners on this io_context; see tcp_listener.hpp ----
   tcp_.reset();
-  auto tcp = TcpSources::open(io_, *ingestor_,
-                              {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
+  auto tcp = TcpSources::open(
+      io_, *ingestor_, {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
   if (!tcp) {
     spdlog::error("{}", tcp.error().message);
     return false;
@@ -221,6 +226,20 @@ void Service::commit_if_due() {
   if (auto committed = ingestor_->commit(); !committed) recover(committed.error());
 }
 
+void Service::schedule_alarm_tick() {
+  if (stopping_) return;
+  alarm_timer_.expires_after(kAlarmTick);
+  alarm_timer_.async_wait([this](const boost::system::error_code& error) {
+    if (error || stopping_) return;  // operation_aborted: cancelled at shutdown
+    if (ingestor_) {
+      auto ticked = ingestor_->tick_alarms();
+      if (ticked && ingestor_->batch_open()) ticked = ingestor_->commit();
+      if (!ticked) recover(ticked.error());
+    }
+    schedule_alarm_tick();
+  });
+}
+
 void Service::wait_for_signal() {
   signals_.async_wait([this](const boost::system::error_code& error, int signal_number) {
     if (error) return;  // cancelled at shutdown
@@ -246,6 +265,7 @@ void Service::on_signal(int signal_number) {
 void Service::shut_down() {
   stopping_ = true;
   poll_timer_.cancel();
+  alarm_timer_.cancel();
   if (tcp_) tcp_->stop();  // tcp sources (issue 5): read no more; close once acknowledged
   if (ingestor_) {
     if (auto committed = ingestor_->commit(); !committed) {
@@ -278,7 +298,7 @@ void Service::reload() {
   auto old_sources = std::move(sources_);
   sources_.clear();
   old_sources.clear();
-  tcp_.reset();  // tcp sources (issue 5): closes their connections before the Ingestor goes
+  tcp_.reset();          // tcp sources (issue 5): closes their connections before the Ingestor goes
   old_ingestor.reset();  // closes the database before it is opened again
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
   if (!open(*config)) {

@@ -3,7 +3,8 @@
 // Signals set state; the work happens in the loop. SIGTERM or SIGINT: stop taking input, commit
 // what is in hand, return (exit 0); a second one ends the process at once (the default action is
 // restored after the first). SIGHUP: reopen the log file and reload the configuration, validated
-// first; an invalid one is logged and the running one kept.
+// first; an invalid one is logged and the running one kept. Every few seconds a clock tick lets
+// the alarms notice a sensor that has gone quiet.
 #pragma once
 
 #include <boost/asio/io_context.hpp>
@@ -41,13 +42,15 @@ class Service {
   void on_signal(int signal_number);
   void reload();
   void shut_down();
-  void commit_if_due();  // tcp sources (issue 5): acknowledge within the batch age
+  void commit_if_due();        // tcp sources (issue 5): acknowledge within the batch age
+  void schedule_alarm_tick();  // alarms judged by the clock (a sensor gone quiet)
 
   boost::asio::io_context& io_;
   std::string config_path_;
   Logging& logging_;
   boost::asio::signal_set signals_;
   boost::asio::steady_timer poll_timer_;
+  boost::asio::steady_timer alarm_timer_;
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
   std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first

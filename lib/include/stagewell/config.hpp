@@ -45,6 +45,28 @@ struct ChecksSpec {
   double max_clock_skew_s = 300.0;  // further ahead of the clock -> future
 };
 
+// Alarms on a site (README, "Alarms"); every alarm is off unless its threshold is set.
+// A threshold alarm raises when its condition has held for `hold_s` (judged by reading times) and
+// clears only once the value is back past threshold ± hysteresis, so that a value hovering at
+// the threshold does not raise and clear over and over.
+struct ThresholdAlarmSpec {
+  std::optional<double> threshold;  // off when empty
+  double hysteresis = 0.0;          // same unit as threshold, >= 0
+  double hold_s = 0.0;              // seconds the condition must hold before raising
+};
+
+struct AlarmsSpec {
+  ThresholdAlarmSpec low_flow;      // discharge below, m^3/s or ft^3/s (configuration's units)
+  ThresholdAlarmSpec high_flow;     // discharge above, m^3/s or ft^3/s
+  std::optional<double> stale_s;    // no new reading for this long (by the clock), seconds
+  ThresholdAlarmSpec rising;        // stage rising faster than this, stage units per hour
+  double rising_window_s = 3600.0;  // rate of rise = change of stage across this window
+
+  bool any() const {
+    return low_flow.threshold || high_flow.threshold || stale_s || rising.threshold;
+  }
+};
+
 struct SiteConfig {
   std::string id;
   std::string name;  // the id when not given
@@ -53,6 +75,7 @@ struct SiteConfig {
   double slope = 0.0;             // energy slope, length per length
   StageSpec stage;
   ChecksSpec checks;
+  AlarmsSpec alarms;
   int line = 0;  // where the site starts in the file, for messages
 
   // Depth (config length unit) for a raw stage reading (stage units):
@@ -73,22 +96,23 @@ struct ColumnNames {
 // acknowledged once stored (protocol: README, "Readings over TCP"). Limits bound what one client
 // can make the service hold.
 struct TcpSpec {
-  std::string address = "127.0.0.1";   // IP address to listen on, as written (IPv4 or IPv6)
-  int port = 7207;                      // TCP port, 1 to 65535
-  bool loopback = true;                 // address is 127.0.0.0/8 or ::1
-  std::optional<std::string> secret;    // clients send it first; required unless loopback
-  std::size_t max_line_bytes = 4096;    // longest line, bytes, without its line ending
-  int max_clients = 64;                 // connections at once; more are refused
-  double idle_timeout_s = 300.0;        // nothing moving either way this long: closed
-  double auth_timeout_s = 10.0;         // no `auth` line this long after connecting: refused
-  std::size_t max_reply_bytes = 65536;  // replies a client leaves unread, bytes, before it is closed
+  std::string address = "127.0.0.1";  // IP address to listen on, as written (IPv4 or IPv6)
+  int port = 7207;                    // TCP port, 1 to 65535
+  bool loopback = true;               // address is 127.0.0.0/8 or ::1
+  std::optional<std::string> secret;  // clients send it first; required unless loopback
+  std::size_t max_line_bytes = 4096;  // longest line, bytes, without its line ending
+  int max_clients = 64;               // connections at once; more are refused
+  double idle_timeout_s = 300.0;      // nothing moving either way this long: closed
+  double auth_timeout_s = 10.0;       // no `auth` line this long after connecting: refused
+  std::size_t max_reply_bytes =
+      65536;  // replies a client leaves unread, bytes, before it is closed
 };
 
 // A place readings come from.
 struct SourceSpec {
   enum class Type { directory, tail, tcp };
   Type type = Type::directory;
-  TcpSpec tcp;  // type tcp only (path is then empty)
+  TcpSpec tcp;                      // type tcp only (path is then empty)
   std::filesystem::path path;       // absolute after loading
   std::optional<std::string> site;  // every reading belongs to this site (no site column)
   ColumnNames columns;

@@ -1,6 +1,9 @@
 // The ingest pipeline's core: a parsed record -> depth, checks, rating -> a stored reading, with
 // rejects and source progress written in the same transaction (see store.hpp, "Durability").
 //
+// Each stored reading also goes through its site's alarms (alarms.hpp); raised and cleared alarms
+// are written in the same transaction and logged once it commits.
+//
 // Every source (drop folder, tailed file, socket, `stagewell ingest`) feeds one Ingestor, which
 // owns the store connection, the per-site rating tables and check state, and the open batch.
 // Batches are committed when they reach `max_batch_readings` or are older than `max_batch_age_ms`
@@ -94,6 +97,11 @@ class Ingestor {
   // commit, and drops its connections after a failed one so that clients resend.
   using CommitObserver = std::function<void(bool committed)>;
   void add_commit_observer(CommitObserver observer);
+
+  // The clock moved on: raises the alarms judged by the clock (a sensor gone quiet, alarms.hpp)
+  // in the open batch, opening one when there is something to write. The daemon calls it every
+  // few seconds and then commits. Alarms judged by readings are evaluated in reading().
+  Result<void> tick_alarms();
 
   // Progress stored for a source (committed state).
   Result<std::optional<IngestProgress>> stored_progress(std::string_view source_key);

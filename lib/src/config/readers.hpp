@@ -14,6 +14,9 @@ bool read_section(const At& at, Context& cx, SectionSpec& out);
 // Reads `sites:` into config.sites. REQUIRES: config.units has been read.
 void read_sites(const At& at, Context& cx, Config& config);
 
+// Reads a site's `alarms:` into `out`.
+void read_alarms(const At& at, Context& cx, AlarmsSpec& out);
+
 // Reads `sources:` into config.sources. REQUIRES: config.sites has been read (a source may name
 // a site).
 void read_sources(const At& at, Context& cx, Config& config);

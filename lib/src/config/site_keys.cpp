@@ -1,5 +1,5 @@
 // A site: its id and name, its section (section_keys.cpp), roughness, slope, how its stage
-// readings are turned into depth, and the checks on each reading.
+// readings are turned into depth, the checks on each reading and its alarms (alarm_keys.cpp).
 #include <fmt/format.h>
 
 #include <map>
@@ -123,6 +123,8 @@ SiteConfig read_site(const At& at, Context& cx, units::System system) {
          read_map(value, stage_keys(system), c, s.stage);
        }},
       {"checks", defaults("{}"), read_checks},
+      {"alarms", defaults("{}"),
+       [](const At& value, Context& c, SiteConfig& s) { read_alarms(value, c, s.alarms); }},
   };
   read_map(at, keys, cx, site);
   if (section_ok) check_roughness_count(at, cx, site);

@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "site_json.hpp"
+#include "stagewell/alarms.hpp"
 #include "stagewell/checks.hpp"
 #include "stagewell/daily_keeper.hpp"
 #include "stagewell/rating.hpp"
@@ -52,6 +53,7 @@ struct Ingestor::Site {
   // left out so that one wrong year does not put every later reading through the look-up; their
   // repeats are still caught by the insert, and future readings change no check state.)
   std::optional<std::int64_t> newest_ms;
+  std::optional<alarms::SiteAlarms> alarms;  // empty when the site has no alarms configured
 
   explicit Site(const SiteConfig& site) : config(&site), checker(site.checks) {}
 };
@@ -68,6 +70,17 @@ struct Ingestor::State {
   IngestCounts pending;  // counts of the open batch, added to the totals on commit
   std::vector<CommitObserver> observers;
   std::optional<daily::DailyKeeper> daily;  // empty when options.keep_daily is off
+  std::int64_t opened_ms = 0;               // when the Ingestor was opened (alarms: stale)
+  // Alarm events written in the open batch, logged once it commits (never when it rolls back).
+  std::vector<std::pair<const Site*, alarms::AlarmEvent>> alarm_log;
+  std::vector<alarms::AlarmEvent> alarm_scratch;  // reused for every reading
+
+  void log_alarms() {
+    for (const auto& [site, event] : alarm_log) {
+      alarms::log_event(site->config->id, event, config.units, site->config->stage.units);
+    }
+    alarm_log.clear();
+  }
 
   void notify(bool committed) {
     for (const auto& observer : observers) observer(committed);
@@ -101,6 +114,26 @@ Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker,
   return {};
 }
 
+// A fresh evaluator for the site's alarms, replaying its recent readings and taking which alarms
+// are open from the store: an alarm open before a restart stays open and is not raised again.
+Result<void> restore_alarms(Store& store, SiteKey key, const SiteConfig& config,
+                            std::int64_t started_ms, std::optional<alarms::SiteAlarms>& out) {
+  out.reset();
+  if (!config.alarms.any()) return {};
+  auto stored = store.recent_readings(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
+  if (!stored) return std::unexpected(stored.error());
+  std::vector<alarms::AlarmReading> past;
+  past.reserve(stored->size());
+  for (const auto& reading : *stored) {
+    past.push_back({reading.time_ms, reading.stage, reading.discharge, reading.flags});
+  }
+  auto open = alarms::open_kinds(store.connection(), key);
+  if (!open) return std::unexpected(open.error());
+  out.emplace(config.alarms, started_ms);
+  out->restore(past, *open);
+  return {};
+}
+
 }  // namespace
 
 Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
@@ -109,6 +142,7 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
   if (!store) return std::unexpected(store.error());
   auto state = std::make_unique<State>(config, options, std::move(clock), std::move(*store));
   const auto now = state->clock();
+  state->opened_ms = now;
   if (options.keep_daily) {
     auto keeper = daily::DailyKeeper::create(state->config);
     if (!keeper) return std::unexpected(keeper.error());
@@ -130,6 +164,10 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
     if (auto seeded = seed_checker(state->store, site->key, site->checker, site->newest_ms);
         !seeded) {
       return std::unexpected(seeded.error());
+    }
+    if (auto restored = restore_alarms(state->store, site->key, site_config, now, site->alarms);
+        !restored) {
+      return std::unexpected(restored.error());
     }
     // Daily figures: recomputes the site's stored figures if they were made with other settings.
     if (state->daily) {
@@ -236,6 +274,18 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
       }
       if (state_->daily) state_->daily->stored(site.key, {out.time_ms, out.discharge, out.flags});
       for (auto flag_name : out.flags.names()) ++pending.flagged_by_flag[std::string(flag_name)];
+      if (site.alarms) {
+        auto& events = state_->alarm_scratch;
+        events.clear();
+        site.alarms->reading({out.time_ms, out.stage, out.discharge, out.flags}, state_->clock(),
+                             events);
+        for (const auto& event : events) {
+          if (auto kept = alarms::record_event((*batch)->connection(), site.key, event); !kept) {
+            return kept;
+          }
+          state_->alarm_log.emplace_back(&site, event);
+        }
+      }
       break;
     case InsertOutcome::duplicate:
     case InsertOutcome::conflict:
@@ -312,6 +362,7 @@ Result<void> Ingestor::commit() {
     if (auto updated = state_->daily->update(state_->batch->connection()); !updated) {
       state_->batch.reset();  // rolls back
       state_->pending = IngestCounts{};
+      state_->alarm_log.clear();
       state_->notify(false);
       return updated;
     }
@@ -321,9 +372,11 @@ Result<void> Ingestor::commit() {
   if (!committed) {
     if (state_->daily) state_->daily->forget();
     state_->pending = IngestCounts{};
+    state_->alarm_log.clear();
     state_->notify(false);
     return committed;
   }
+  state_->log_alarms();
   ++state_->pending.commits;
   counts_.add(state_->pending);
   state_->pending = IngestCounts{};
@@ -339,12 +392,39 @@ Result<void> Ingestor::reset() {
   state_->batch.reset();  // rolls back
   if (state_->daily) state_->daily->forget();
   state_->pending = IngestCounts{};
+  state_->alarm_log.clear();
   state_->notify(false);
   for (auto& [id, site] : state_->sites) {
     site->checker = SiteChecker(site->config->checks);
     if (auto seeded = seed_checker(state_->store, site->key, site->checker, site->newest_ms);
         !seeded) {
       return seeded;
+    }
+    // The evaluator may have moved on with the dropped batch: back to what the store holds.
+    if (auto restored = restore_alarms(state_->store, site->key, *site->config, state_->opened_ms,
+                                       site->alarms);
+        !restored) {
+      return restored;
+    }
+  }
+  return {};
+}
+
+Result<void> Ingestor::tick_alarms() {
+  const std::int64_t now = state_->clock();
+  for (auto& [id, site] : state_->sites) {
+    if (!site->alarms) continue;
+    auto& events = state_->alarm_scratch;
+    events.clear();
+    site->alarms->tick(now, events);
+    if (events.empty()) continue;
+    auto batch = this->batch();
+    if (!batch) return std::unexpected(batch.error());
+    for (const auto& event : events) {
+      if (auto kept = alarms::record_event((*batch)->connection(), site->key, event); !kept) {
+        return kept;
+      }
+      state_->alarm_log.emplace_back(site.get(), event);
     }
   }
   return {};
