@@ -68,8 +68,8 @@ class Progress {
       if (last) std::cerr << '\n';
     } else {
       std::cerr << fmt::format("{}: {:.1f}% ({} of {} readings), {} readings changed\n", site,
-                               100.0 * fraction, totals.readings_walked,
-                               totals.readings_in_period, totals.readings_changed);
+                               100.0 * fraction, totals.readings_walked, totals.readings_in_period,
+                               totals.readings_changed);
     }
   }
 
@@ -90,8 +90,7 @@ void print_summary(const ReprocessTotals& totals, units::System system) {
   std::cout << fmt::format("readings recomputed: {} ({} with a new depth, discharge or flags)\n",
                            totals.readings_recomputed, totals.readings_changed);
   std::cout << fmt::format("max discharge change: {} {}\n",
-                           format_number(totals.max_discharge_change),
-                           metric ? "m^3/s" : "ft^3/s");
+                           format_number(totals.max_discharge_change), metric ? "m^3/s" : "ft^3/s");
   std::cout << fmt::format("days refreshed: {} (max daily volume change: {} {})\n",
                            totals.days_refreshed, format_number(totals.max_daily_volume_change),
                            metric ? "m^3" : "ft^3");
@@ -103,9 +102,10 @@ std::optional<std::int64_t> parse_time_option(const std::string& text, std::stri
   if (text.empty()) return absent;
   auto parsed = parse_timestamp(text, nullptr);
   if (!parsed) {
-    std::cerr << fmt::format("{} {}: {} (write RFC 3339 with an offset, e.g. "
-                             "2025-06-01T00:00:00Z)\n",
-                             name, text, parsed.error().message);
+    std::cerr << fmt::format(
+        "{} {}: {} (write RFC 3339 with an offset, e.g. "
+        "2025-06-01T00:00:00Z)\n",
+        name, text, parsed.error().message);
     return std::nullopt;
   }
   return *parsed;
@@ -115,8 +115,8 @@ int run_reprocess(const ReprocessOptions& options) {
   auto config = load_config_or_report(options.config_path);
   if (!config) return kInvalidInput;
   if (!find_site_or_report(*config, options.site)) return kInvalidInput;
-  const auto from = parse_time_option(options.from, "--from",
-                                      std::numeric_limits<std::int64_t>::min());
+  const auto from =
+      parse_time_option(options.from, "--from", std::numeric_limits<std::int64_t>::min());
   const auto to = parse_time_option(options.to, "--to", std::numeric_limits<std::int64_t>::max());
   if (!from || !to) return kUsage;
   if (*to <= *from) {
@@ -133,8 +133,7 @@ int run_reprocess(const ReprocessOptions& options) {
               << store.error().message << '\n';
     return kInvalidInput;
   }
-  auto reprocessor =
-      Reprocessor::plan(*store, *config, options.site, system_now_ms(), *from, *to);
+  auto reprocessor = Reprocessor::plan(*store, *config, options.site, system_now_ms(), *from, *to);
   if (!reprocessor) {
     std::cerr << reprocessor.error().message << '\n';
     return kInvalidInput;

@@ -119,8 +119,8 @@ bool Service::open(const Config& config) {
   }
   // ---- tcp sources (issue 5): listeners on this io_context; see tcp_listener.hpp ----
   tcp_.reset();
-  auto tcp = TcpSources::open(io_, *ingestor_,
-                              {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
+  auto tcp = TcpSources::open(
+      io_, *ingestor_, {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
   if (!tcp) {
     spdlog::error("{}", tcp.error().message);
     return false;
@@ -280,7 +280,7 @@ void Service::reload() {
   auto old_sources = std::move(sources_);
   sources_.clear();
   old_sources.clear();
-  tcp_.reset();  // tcp sources (issue 5): closes their connections before the Ingestor goes
+  tcp_.reset();          // tcp sources (issue 5): closes their connections before the Ingestor goes
   old_ingestor.reset();  // closes the database before it is opened again
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
   if (!open(*config)) {
@@ -316,8 +316,8 @@ void Service::plan_reprocessing() {
     return;
   }
   for (const auto& site : ingestor_->config().sites) {
-    auto planned = Reprocessor::plan(ingestor_->store(), ingestor_->config(), site.id,
-                                     ingestor_->now_ms());
+    auto planned =
+        Reprocessor::plan(ingestor_->store(), ingestor_->config(), site.id, ingestor_->now_ms());
     if (!planned) {
       spdlog::error("{}: cannot plan the recomputation of its history: {}", site.id,
                     planned.error().message);
@@ -352,17 +352,18 @@ void Service::reprocess_step() {
   }
   Reprocessor& work = *reprocess_.front();
   if (auto stepped = work.step(ingestor_->store(), kReprocessStepReadings); !stepped) {
-    spdlog::error("{}: recomputation stopped: {}; what was committed stays, the rest is found "
-                  "again at the next start or SIGHUP",
-                  work.site_id(), stepped.error().message);
+    spdlog::error(
+        "{}: recomputation stopped: {}; what was committed stays, the rest is found "
+        "again at the next start or SIGHUP",
+        work.site_id(), stepped.error().message);
     reprocess_.erase(reprocess_.begin());
   } else if (work.done()) {
     const auto& totals = work.totals();
-    spdlog::info("{}: recomputed {} readings ({} changed, max discharge change {:.6g}, {} days "
-                 "refreshed, max daily volume change {:.6g}); see the `changes` view",
-                 work.site_id(), totals.readings_recomputed, totals.readings_changed,
-                 totals.max_discharge_change, totals.days_refreshed,
-                 totals.max_daily_volume_change);
+    spdlog::info(
+        "{}: recomputed {} readings ({} changed, max discharge change {:.6g}, {} days "
+        "refreshed, max daily volume change {:.6g}); see the `changes` view",
+        work.site_id(), totals.readings_recomputed, totals.readings_changed,
+        totals.max_discharge_change, totals.days_refreshed, totals.max_daily_volume_change);
     reprocess_.erase(reprocess_.begin());
   }
   post_reprocess_step();

@@ -41,15 +41,14 @@ const stagewell::SiteConfig& only_site(const stagewell::ConfigResult& config) {
 }  // namespace
 
 TEST_CASE("each change applies on top of the one before; the site's keys hold before the first") {
-  const auto config = stagewell::parse_config(
-      stagewell::test::yaml_text(site_with(R"(    changes:
+  const auto config = stagewell::parse_config(stagewell::test::yaml_text(site_with(R"(    changes:
       - from: 2025-06-01T00:00:00Z
         roughness: 0.032
       - from: 2025-09-15T08:00:00-06:00
         section: {shape: surveyed, points: [[0, 2.0], [1.2, 0.1], [3.0, 0.0], [4.4, 1.9]]}
         stage: {zero_flow: 0.2}
 )")),
-      "test.yaml", "/srv/flows");
+                                              "test.yaml", "/srv/flows");
   INFO(listing(config ? std::vector<stagewell::ConfigError>{} : config.error()));
   const auto& site = only_site(config);
   REQUIRE(site.changes.size() == 2);
@@ -76,12 +75,12 @@ TEST_CASE("each change applies on top of the one before; the site's keys hold be
 }
 
 TEST_CASE("a drift grows linearly from 0 at `from` to its value at `to`; offset is constant") {
-  const auto config = stagewell::parse_config(
-      stagewell::test::yaml_text(site_with(R"(    corrections:
+  const auto config =
+      stagewell::parse_config(stagewell::test::yaml_text(site_with(R"(    corrections:
       - {from: 2025-06-01T00:00:00Z, to: 2025-06-11T00:00:00Z, drift: -0.02}
       - {from: 2025-05-01T00:00:00Z, to: 2025-05-02T00:00:00Z, offset: 0.01, drift: 0.004}
 )")),
-      "test.yaml", "/srv/flows");
+                              "test.yaml", "/srv/flows");
   const auto& site = only_site(config);
   REQUIRE(site.corrections.size() == 2);
   // Sorted by time whatever the order written.
@@ -108,8 +107,9 @@ TEST_CASE("a `from` that is not a time is refused with its line") {
       - from: next tuesday # 13
         roughness: 0.03    # 14
 )"),
-                   13, "test.yaml:13:15: sites[0].changes[0].from = next tuesday: must be an "
-                       "RFC 3339 time");
+                   13,
+                   "test.yaml:13:15: sites[0].changes[0].from = next tuesday: must be an "
+                   "RFC 3339 time");
   // Without an offset the time is ambiguous.
   expect_one_error(site_with(R"(    corrections:                      # 12
       - from: 2025-06-01T00:00:00       # 13
@@ -126,7 +126,8 @@ TEST_CASE("changes out of time order are refused") {
       - from: 2025-06-01T00:00:00Z        # 15
         roughness: 0.04                   # 16
 )"),
-                   15, "changes must be in time order: this one is not after the change on line 13");
+                   15,
+                   "changes must be in time order: this one is not after the change on line 13");
 }
 
 TEST_CASE("overlapping corrections are refused, naming the other") {
@@ -142,14 +143,16 @@ TEST_CASE("overlapping corrections are refused, naming the other") {
   CHECK(errors_of(site_with(R"(    corrections:
       - {from: 2025-06-01T00:00:00Z, to: 2025-06-10T00:00:00Z, offset: 0.02}
       - {from: 2025-06-10T00:00:00Z, to: 2025-06-20T00:00:00Z, drift: 0.01}
-)")).empty());
+)"))
+            .empty());
 }
 
 TEST_CASE("a correction needs an end after its start and an amount") {
-  expect_one_error(site_with(R"(    corrections:                                                  # 12
+  expect_one_error(
+      site_with(R"(    corrections:                                                  # 12
       - {from: 2025-06-10T00:00:00Z, to: 2025-06-01T00:00:00Z, offset: 0.02}  # 13
 )"),
-                   13, "must be after `from` (2025-06-10T00:00:00Z)");
+      13, "must be after `from` (2025-06-10T00:00:00Z)");
   expect_one_error(site_with(R"(    corrections:                                          # 12
       - {from: 2025-06-01T00:00:00Z, to: 2025-06-10T00:00:00Z}  # 13
 )"),
@@ -165,8 +168,9 @@ TEST_CASE("a change that makes the section invalid is refused like a site's sect
           points: [[0, 2.0], [1.2, 0.1], [3.0, 0.0], [4.4, -0.5]]  # 16
 )"));
   INFO(listing(errors));
-  CHECK(has_error(errors, 16, "sites[0].changes[0].section.points[3] = [4.4, -0.5]: the section "
-                              "must rise to a bank on both sides"));
+  CHECK(has_error(errors, 16,
+                  "sites[0].changes[0].section.points[3] = [4.4, -0.5]: the section "
+                  "must rise to a bank on both sides"));
   // A key the shape does not take, as for a site.
   expect_one_error(site_with(R"(    changes:                                   # 12
       - from: 2025-09-15T08:00:00-06:00          # 13
@@ -212,6 +216,7 @@ sites:                   # 3
       - from: 2025-06-01T00:00:00Z  # 12
         section: {shape: surveyed, points: [[0, 2], [1, 0.5], [3, 0], [4, 2]], breaks: [1, 3.5]}  # 13
 )";
-  expect_one_error(text, 13, "has 3 subsections, but the roughness in force before this change "
-                             "has 2 values");
+  expect_one_error(text, 13,
+                   "has 3 subsections, but the roughness in force before this change "
+                   "has 2 values");
 }

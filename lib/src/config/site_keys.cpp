@@ -134,7 +134,8 @@ SiteConfig read_site(const At& at, Context& cx, units::System system) {
       {"checks", defaults("{}"),
        [](const At& value, Context& c, SiteConfig& s) { read_checks(value, c, s.checks, true); }},
       // History (history_keys.cpp), read once the keys above are resolved.
-      {"changes", optional(), [&changes](const At& value, Context&, SiteConfig&) { changes = value; }},
+      {"changes", optional(),
+       [&changes](const At& value, Context&, SiteConfig&) { changes = value; }},
       {"corrections", optional(),
        [&corrections](const At& value, Context&, SiteConfig&) { corrections = value; }},
   };

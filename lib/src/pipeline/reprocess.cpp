@@ -22,8 +22,8 @@ namespace {
 constexpr std::size_t kContextReadings = 4096;
 
 // Flags that depend on when a reading arrived, not on its neighbours in time: kept as stored.
-constexpr Flags kArrivalFlags = Flags(static_cast<std::uint32_t>(Flag::late) |
-                                      static_cast<std::uint32_t>(Flag::future));
+constexpr Flags kArrivalFlags =
+    Flags(static_cast<std::uint32_t>(Flag::late) | static_cast<std::uint32_t>(Flag::future));
 
 struct Stored {
   std::int64_t time_ms = 0;
@@ -124,9 +124,9 @@ Result<void> read_stored(sqlite::Connection& connection, SiteKey key, std::int64
     if (!row) return std::unexpected(row.error());
     if (!*row) return {};
     const auto& s = **select;
-    out.push_back({s.column_int64(0), s.column_double(1), s.column_double(2),
-                   s.column_optional_double(3), Flags(static_cast<std::uint32_t>(s.column_int64(4))),
-                   ConfigVersionId{s.column_int64(5)}});
+    out.push_back(
+        {s.column_int64(0), s.column_double(1), s.column_double(2), s.column_optional_double(3),
+         Flags(static_cast<std::uint32_t>(s.column_int64(4))), ConfigVersionId{s.column_int64(5)}});
   }
 }
 
@@ -160,8 +160,8 @@ Result<std::unique_ptr<Reprocessor>> Reprocessor::plan(Store& store, const Confi
                                                        std::int64_t to_ms) {
   const SiteConfig* site = config.find_site(site_id);
   if (site == nullptr) {
-    return fail(ErrorKind::not_found, fmt::format("no site '{}' in {}", site_id,
-                                                  config.file.string()));
+    return fail(ErrorKind::not_found,
+                fmt::format("no site '{}' in {}", site_id, config.file.string()));
   }
   auto key = store.ensure_site(site->id);
   if (!key) return std::unexpected(key.error());
@@ -169,8 +169,8 @@ Result<std::unique_ptr<Reprocessor>> Reprocessor::plan(Store& store, const Confi
   if (!history) return std::unexpected(history.error());
   auto zone = TimeZone::parse(config.timezone);
   if (!zone) return std::unexpected(zone.error());
-  auto state = std::make_unique<State>(std::move(*history), daily::DayCalendar(std::move(*zone)),
-                                       *site);
+  auto state =
+      std::make_unique<State>(std::move(*history), daily::DayCalendar(std::move(*zone)), *site);
   state->config = &config;
   state->site = site;
   state->key = *key;
@@ -187,10 +187,10 @@ Result<std::unique_ptr<Reprocessor>> Reprocessor::plan(Store& store, const Confi
     auto found = mismatched(connection, *key, from, to, segment.version);
     if (!found) return std::unexpected(found.error());
     if (!*found) continue;
-    totals.period_from_ms = std::min(totals.period_from_ms.value_or((*found)->first),
-                                     (*found)->first);
-    totals.period_to_ms = std::max(totals.period_to_ms.value_or((*found)->second),
-                                   (*found)->second);
+    totals.period_from_ms =
+        std::min(totals.period_from_ms.value_or((*found)->first), (*found)->first);
+    totals.period_to_ms =
+        std::max(totals.period_to_ms.value_or((*found)->second), (*found)->second);
   }
   if (!totals.period_from_ms) {
     state->finished = true;
@@ -251,9 +251,9 @@ Result<void> Reprocessor::step(Store& store, std::int64_t max_readings) {
       const CheckResult result = s.checker.check(reading.time_ms, reading.stage, reading.time_ms);
       checked = result.flags;
       for (const EarlierFlag& earlier : result.earlier) {
-        const auto it = std::lower_bound(
-            stored.begin(), stored.end(), earlier.time_ms,
-            [](const Stored& r, std::int64_t time) { return r.time_ms < time; });
+        const auto it =
+            std::lower_bound(stored.begin(), stored.end(), earlier.time_ms,
+                             [](const Stored& r, std::int64_t time) { return r.time_ms < time; });
         const auto index = static_cast<std::size_t>(it - stored.begin());
         if (it != stored.end() && it->time_ms == earlier.time_ms && index < computed.size()) {
           computed[index].flags |= earlier.flags;
