@@ -48,7 +48,8 @@ Config must_parse(const std::string& text) {
 }
 
 void BM_ReprocessSiteYear(benchmark::State& state) {
-  std::string pattern = (std::filesystem::temp_directory_path() / "reprocess-bench-XXXXXX").string();
+  std::string pattern =
+      (std::filesystem::temp_directory_path() / "reprocess-bench-XXXXXX").string();
   if (::mkdtemp(pattern.data()) == nullptr) std::abort();
   const std::filesystem::path dir(pattern);
   const auto db = dir / "flows.db";

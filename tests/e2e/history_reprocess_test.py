@@ -39,6 +39,10 @@ sites:
     roughness: {N_BEFORE}
     slope: {SLOPE}
     checks: {{max_gap: 1h}}
+  - id: raceway
+    section: {{shape: rectangular, width: 1.0, height: 1.0}}
+    roughness: 0.013
+    slope: 0.002
 """
 HISTORY = f"""    changes:
       - from: {ds.iso(CHANGE_MS)}
@@ -48,6 +52,26 @@ HISTORY = f"""    changes:
         to: {ds.iso(DRIFT_TO_MS)}
         drift: {DRIFT_M}
 """
+# The raceway is widened from the change on, and its sensor found reading 2 cm high from then (a
+# stage offset of -0.02 m); a 2-hour period before it is corrected by a constant +0.01 m.
+OFFSET_FROM_MS = START_MS + 3 * 3_600_000
+OFFSET_TO_MS = START_MS + 5 * 3_600_000
+RACEWAY_HISTORY = f"""    changes:
+      - from: {ds.iso(CHANGE_MS)}
+        section: {{shape: rectangular, width: 1.5, height: 1.0}}
+        stage: {{offset: -0.02}}
+    corrections:
+      - {{from: {ds.iso(OFFSET_FROM_MS)}, to: {ds.iso(OFFSET_TO_MS)}, offset: 0.01}}
+"""
+
+
+def raceway_expected(time_ms, stage):
+    """Depth and discharge of the raceway with RACEWAY_HISTORY, from their definitions."""
+    width, depth = (1.5, stage - 0.02) if time_ms >= CHANGE_MS else (1.0, stage)
+    if OFFSET_FROM_MS <= time_ms < OFFSET_TO_MS:
+        depth += 0.01
+    area, perimeter = width * depth, width + 2 * depth
+    return depth, area * (area / perimeter) ** (2 / 3) * math.sqrt(0.002) / 0.013
 
 
 def stage_at(i):
@@ -86,25 +110,52 @@ def main():
         times = [START_MS + i * STEP_MS for i in range(COUNT)]
         for i, t in enumerate(times):
             lines.append(f"canal,{ds.iso(t)},{stage_at(i)}")
+            lines.append(f"raceway,{ds.iso(t)},{stage_at(i)}")
         data = os.path.join(tmp, "canal.csv")
         ds.write(data, "\n".join(lines) + "\n")
         done = run(args, stagewell, "ingest", "--config", config, "--quiet", data)
         r.check("ingest", done.returncode == 0, done.stderr)
         before = {t: (d, q) for t, d, q in ds.query(
-            db, "SELECT round(unix_time * 1000), depth, discharge FROM discharge")}
-        old_versions = {v for (v,) in ds.query(db, "SELECT DISTINCT version FROM discharge")}
+            db, "SELECT round(unix_time * 1000), depth, discharge FROM discharge "
+                "WHERE site = 'canal'")}
+        old_versions = {v for (v,) in ds.query(
+            db, "SELECT DISTINCT version FROM discharge WHERE site = 'canal'")}
         r.check("one version before the edit", len(old_versions) == 1, str(old_versions))
 
         # Nothing to do while the configuration is unchanged.
         again = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
         r.check("unchanged: nothing to do", "nothing to recompute" in again.stdout, again.stdout)
 
-        ds.write(config, BASE + HISTORY)
+        ds.write(config, BASE.replace("    checks: {max_gap: 1h}\n",
+                                      "    checks: {max_gap: 1h}\n" + HISTORY)
+                 + RACEWAY_HISTORY)
         done = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
         r.check("reprocess runs", done.returncode == 0, done.stderr + done.stdout)
+        raceway = run(args, stagewell, "reprocess", "--config", config, "--site", "raceway")
+        r.check("reprocess of the raceway runs", raceway.returncode == 0,
+                raceway.stderr + raceway.stdout)
+
+        # The raceway on both sides of its change of section and offset, and in its corrected
+        # period, against the closed form.
+        raceway_rows = {t: (s, d, q) for t, s, d, q in ds.query(
+            db, "SELECT round(unix_time * 1000), stage, depth, discharge FROM discharge "
+                "WHERE site = 'raceway'")}
+        worst = 0.0
+        for i, t in enumerate(times):
+            want_depth, want_q = raceway_expected(t, stage_at(i))
+            _, depth, q = raceway_rows[t]
+            worst = max(worst, abs(q - want_q) / want_q, abs(depth - want_depth))
+        r.check("raceway: every reading matches Manning's equation with its history",
+                worst < 1e-5, f"worst relative error {worst:.2e}")
+        for t in (CHANGE_MS - STEP_MS, CHANGE_MS, OFFSET_FROM_MS - STEP_MS, OFFSET_FROM_MS,
+                  OFFSET_TO_MS - STEP_MS, OFFSET_TO_MS):
+            i = (t - START_MS) // STEP_MS
+            r.close(f"raceway discharge at {ds.iso(t)}", raceway_rows[t][2],
+                    raceway_expected(t, stage_at(i))[1], 1e-5)
 
         stored = {t: (s, d, q, v) for t, s, d, q, v in ds.query(
-            db, "SELECT round(unix_time * 1000), stage, depth, discharge, version FROM discharge")}
+            db, "SELECT round(unix_time * 1000), stage, depth, discharge, version FROM discharge "
+                "WHERE site = 'canal'")}
         r.check("every reading kept", len(stored) == COUNT, str(len(stored)))
         # Every reading against the closed form (the rating table's interpolation is within 1e-6
         # relative of the formula: README, "Hydraulics"; 1e-5 allowed here).
@@ -152,7 +203,7 @@ def main():
         # The record of the recomputation.
         rows = ds.query(db, "SELECT at, site, period_from, period_to, config_before, config_after, "
                             "readings_changed, max_discharge_change, max_daily_volume_change "
-                            "FROM changes")
+                            "FROM changes WHERE site = 'canal'")
         r.check("one row in changes", len(rows) == 1, str(rows))
         if rows:
             (at, site, p_from, p_to, c_before, c_after, changed, max_dq, max_dv) = rows[0]
@@ -181,9 +232,10 @@ def main():
         second = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
         r.check("second run: nothing to do", "nothing to recompute" in second.stdout,
                 second.stdout)
-        r.check("second run: no second row", ds.count(db, "SELECT count(*) FROM changes") == 1)
+        r.check("second run: no second row",
+                ds.count(db, "SELECT count(*) FROM changes WHERE site = 'canal'") == 1)
         after_second = {t: q for t, q in ds.query(
-            db, "SELECT round(unix_time * 1000), discharge FROM discharge")}
+            db, "SELECT round(unix_time * 1000), discharge FROM discharge WHERE site = 'canal'")}
         r.check("second run: no value changed",
                 all(after_second[t] == stored[t][2] for t in times))
 
@@ -194,8 +246,8 @@ def main():
 """)
         bad = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
         r.check("bad from refused", bad.returncode == 1 and
-                f"{config}:11:15: sites[0].changes[0].from = last june" in bad.stderr, bad.stderr)
-        r.check("bad edit: nothing recorded", ds.count(db, "SELECT count(*) FROM changes") == 1)
+                f"{config}:15:15: sites[1].changes[0].from = last june" in bad.stderr, bad.stderr)
+        r.check("bad edit: nothing recorded", ds.count(db, "SELECT count(*) FROM changes") == 2)
     return r.finish()
 
 
