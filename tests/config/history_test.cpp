@@ -197,9 +197,6 @@ TEST_CASE("a change is validated with the site's bounds and keys") {
 }
 
 TEST_CASE("a change to a section with more subsections needs its roughness list") {
-  const auto errors = errors_of(site_with(R"(    roughness_list_is_needed: no  # 12
-)"));
-  CHECK(!errors.empty());  // (an unknown key: the site table is the same as before)
   // Two n carried over cannot serve a section with three subsections.
   const std::string text = R"(
 units: metric            # 1
