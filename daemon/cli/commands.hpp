@@ -17,5 +17,6 @@ void add_daily_command(CLI::App& program, Action& chosen);
 void add_stats_command(CLI::App& program, Action& chosen);
 void add_plot_command(CLI::App& program, Action& chosen);
 void add_send_command(CLI::App& program, Action& chosen);
+void add_reprocess_command(CLI::App& program, Action& chosen);
 
 }  // namespace stagewell::cli

@@ -25,6 +25,7 @@ int main(int argc, char** argv) {
   add_stats_command(program, chosen);
   add_plot_command(program, chosen);
   add_send_command(program, chosen);
+  add_reprocess_command(program, chosen);
 
   try {
     program.parse(argc, argv);

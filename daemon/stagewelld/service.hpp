@@ -18,6 +18,7 @@
 #include "logging.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
+#include "stagewell/reprocess.hpp"
 #include "tcp_listener.hpp"  // tcp sources (issue 5)
 
 namespace stagewell::service {
@@ -44,6 +45,11 @@ class Service {
   void shut_down();
   void commit_if_due();        // tcp sources (issue 5): acknowledge within the batch age
   void schedule_alarm_tick();  // alarms judged by the clock (a sensor gone quiet)
+  // History (reprocess.hpp): after a configuration is loaded, the readings its history or
+  // corrections compute differently are recomputed in steps posted between other work.
+  void plan_reprocessing();
+  void post_reprocess_step();
+  void reprocess_step();
 
   boost::asio::io_context& io_;
   std::string config_path_;
@@ -54,6 +60,8 @@ class Service {
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
   std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first
+  std::vector<std::unique_ptr<Reprocessor>> reprocess_;  // history: sites left to recompute
+  bool reprocess_posted_ = false;
   bool stopping_ = false;
   bool poll_posted_ = false;
   int exit_code_ = 0;

@@ -1,6 +1,7 @@
 #!/usr/bin/env python3
 """`stagewelld` and its signals: SIGHUP with an invalid configuration keeps the running one (and
-says why in the log); SIGHUP with a valid, changed configuration applies it to what is read next;
+says why in the log); SIGHUP with a valid, changed configuration (a change of roughness in the
+site's history, from a time on) applies it to the readings after that time;
 a SIGHUP in the middle of a large file takes the file up again where it was; SIGTERM in the
 middle of it exits 0 with exactly the lines before the stored progress committed, and the next
 start finishes the file with every line stored once.
@@ -22,7 +23,7 @@ MIN = 60_000
 BIG_LINES = 300_000
 
 
-def config(roughness, extra_site=False, error=False):
+def config(roughness, extra_site=False, error=False, change=None):
     text = f"""\
 units: metric
 database: db/stagewell.db
@@ -36,6 +37,12 @@ sites:
     section: {{shape: rectangular, width: 2.0, height: 1.5}}
     roughness: {roughness}
     slope: 0.001
+"""
+    if change is not None:  # (from_ms, roughness): the site's history (README, "History and ...")
+        text += f"""\
+    changes:
+      - from: {ds.iso(change[0])}
+        roughness: {change[1]}
 """
     if extra_site:
         text += f"""\
@@ -100,8 +107,9 @@ def main():
             R.check("the old configuration is in force: site b unknown",
                     len(kept) == 1 and kept[0][3].startswith("unknown_site:"), f"{kept}")
 
-            # SIGHUP with a valid configuration: new roughness for a, a new site b.
-            ds.write(config_path, config(0.020, extra_site=True))
+            # SIGHUP with a valid configuration: new roughness for a from a time on (a change in
+            # its history; readings before it keep theirs), a new site b.
+            ds.write(config_path, config(0.014, extra_site=True, change=(T0 + 15 * MIN, 0.020)))
             daemon.signal(signal.SIGHUP)
             R.check("valid reload logged", ds.wait_until(lambda: log_has(daemon, "reloaded"), 10),
                     daemon.log())

@@ -31,9 +31,13 @@ TEST_CASE("the views have exactly the contracted columns") {
   auto raw = raw_connection(dir.db());
   CHECK(column_names(*raw, "discharge") == std::vector<std::string>{"site", "time", "unix_time",
                                                                     "stage", "depth", "discharge",
-                                                                    "flags"});
+                                                                    "flags", "version"});
   CHECK(column_names(*raw, "rejects") ==
         std::vector<std::string>{"source", "position", "raw", "reason", "received"});
+  CHECK(column_names(*raw, "changes") ==
+        std::vector<std::string>{"at", "site", "period_from", "period_to", "config_before",
+                                 "config_after", "readings_changed", "max_discharge_change",
+                                 "max_daily_volume_change"});
 }
 
 TEST_CASE("discharge view: RFC 3339 UTC time text and unix_time in seconds") {

@@ -11,6 +11,7 @@
 // least 0, not both 0 for a triangular section; at most max_subsections - 1 breaks.
 #pragma once
 
+#include <cstdint>
 #include <expected>
 #include <filesystem>
 #include <memory>
@@ -43,6 +44,8 @@ struct ChecksSpec {
   double flatline_s = 6 * 3600.0;   // the same stage for longer -> flatline; 0 = off
   double max_gap_s = 3600.0;        // longer since the previous reading -> gap
   double max_clock_skew_s = 300.0;  // further ahead of the clock -> future
+
+  friend bool operator==(const ChecksSpec&, const ChecksSpec&) = default;
 };
 
 // Alarms on a site (README, "Alarms"); every alarm is off unless its threshold is set.
@@ -66,6 +69,21 @@ struct AlarmsSpec {
     return low_flow.threshold || high_flow.threshold || stale_s || rising.threshold;
   }
 };
+// A correction of raw stage over [from_ms, to_ms) (start included, end not), added before the
+// stage becomes depth; the stored raw stage is never changed. Stage units.
+struct StageCorrection {
+  std::int64_t from_ms = 0;  // ms since the epoch, UTC
+  std::int64_t to_ms = 0;    // ms since the epoch, UTC; greater than from_ms
+  double offset = 0.0;       // stage units, added throughout the period
+  double drift = 0.0;        // stage units added at to_ms, growing linearly from 0 at from_ms
+  int line = 0;              // where it is written, for messages
+
+  // Stage units to add to a raw reading at `time_ms`: offset + drift * (t - from) / (to - from).
+  // REQUIRES: from_ms <= time_ms < to_ms.
+  double at(std::int64_t time_ms) const;
+};
+
+struct SiteChange;
 
 struct SiteConfig {
   std::string id;
@@ -77,12 +95,29 @@ struct SiteConfig {
   ChecksSpec checks;
   AlarmsSpec alarms;
   int line = 0;  // where the site starts in the file, for messages
+  // History (README, "History and corrections"): the keys above hold before the first change;
+  // each change, in time order, overrides keys from its `from` on. Corrections never overlap and
+  // are sorted by time. In the SiteConfig of a change both lists are empty.
+  std::vector<SiteChange> changes;
+  std::vector<StageCorrection> corrections;
+
+  // The keys in force at `time_ms`: this site, or the SiteConfig of the latest change at or before.
+  const SiteConfig& version_at(std::int64_t time_ms) const;
+  // The correction whose period holds `time_ms`; nullptr when none does.
+  const StageCorrection* correction_at(std::int64_t time_ms) const;
 
   // Depth (config length unit) for a raw stage reading (stage units):
   // (stage + offset - zero_flow) converted to the configuration's length unit.
   double depth_for_stage(double stage, units::System system) const;
   // The inverse: the stage reading (stage units) that gives `depth`.
   double stage_for_depth(double depth, units::System system) const;
+};
+
+// The site as it is from `from_ms` on (each change applied on top of the one before it).
+struct SiteChange {
+  std::int64_t from_ms = 0;  // ms since the epoch, UTC
+  int line = 0;              // where the change is written
+  SiteConfig site;           // every key resolved; its changes and corrections are empty
 };
 
 // Which header names hold the fields of a CSV reading.

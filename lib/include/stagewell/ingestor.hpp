@@ -91,6 +91,11 @@ class Ingestor {
   Result<void> commit();
   // Drops the open batch and restores the check state from the store (after a failed commit).
   Result<void> reset();
+  // Stored readings were rewritten on this Ingestor's store connection by something else (a
+  // recomputation, reprocess.hpp): what it keeps of them in memory — the daily figures' copy of
+  // the open day, the checks' and alarms' recent readings — is read again. REQUIRES: no batch is
+  // open (commit() first).
+  Result<void> stored_readings_rewritten();
 
   // Called after every commit attempt: true when the batch is stored, false when it was dropped
   // (failed commit or reset()). A socket source acknowledges what it fed before a successful
@@ -120,6 +125,8 @@ class Ingestor {
   struct State;
   explicit Ingestor(std::unique_ptr<State> state);
   Result<WriteBatch*> batch();
+  // Rebuilds each site's check state and alarm evaluator from the store.
+  Result<void> reload_site_state();
   // A record whose (site, time) is stored with `stored_stage`: a no-op when the stage is the
   // same, a 'conflict' reject when not (stored values are never replaced).
   Result<void> repeat(const Record& record, double stored_stage, const SourcePosition& at);

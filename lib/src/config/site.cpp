@@ -20,3 +20,31 @@ const SiteConfig* Config::find_site(std::string_view site_id) const {
 }
 
 }  // namespace stagewell
+
+namespace stagewell {
+
+double StageCorrection::at(std::int64_t time_ms) const {
+  const double share =
+      static_cast<double>(time_ms - from_ms) / static_cast<double>(to_ms - from_ms);
+  return offset + drift * share;
+}
+
+const SiteConfig& SiteConfig::version_at(std::int64_t time_ms) const {
+  // Changes are sorted by from_ms (validated): the last one that has begun is in force.
+  const SiteConfig* in_force = this;
+  for (const auto& change : changes) {
+    if (change.from_ms > time_ms) break;
+    in_force = &change.site;
+  }
+  return *in_force;
+}
+
+const StageCorrection* SiteConfig::correction_at(std::int64_t time_ms) const {
+  for (const auto& correction : corrections) {
+    if (correction.from_ms > time_ms) break;
+    if (time_ms < correction.to_ms) return &correction;
+  }
+  return nullptr;
+}
+
+}  // namespace stagewell

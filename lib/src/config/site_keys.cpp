@@ -22,6 +22,10 @@ const Bounds kRoughness = Bounds::at_least(0.008).at_most(0.25);
 // written without its % (1.5 meaning 1.5 %), or a drop in metres per kilometre. Common practice.
 const Bounds kSlope = Bounds::above(0.0).at_most(0.5);
 
+}  // namespace
+
+Read<double> slope_value() { return number(kSlope); }
+
 // Manning's n: one number, or a list with one per subsection. Counted against the section after
 // the whole site is read (check_roughness_count).
 void read_roughness(const At& at, Context& cx, SiteConfig& out) {
@@ -96,19 +100,24 @@ const std::vector<Key<ChecksSpec>>& checks_keys() {
   return keys;
 }
 
-void read_checks(const At& at, Context& cx, SiteConfig& out) {
-  read_map(at, checks_keys(), cx, out.checks);
-  const auto& checks = out.checks;
+void read_checks(const At& at, Context& cx, ChecksSpec& checks, bool with_defaults) {
+  read_map(at, with_defaults ? checks_keys() : without_defaults(checks_keys()), cx, checks);
   if (checks.min_stage && checks.max_stage && *checks.min_stage >= *checks.max_stage) {
     if (const auto max_stage = find(at, "max_stage")) {
       cx.error(*max_stage, fmt::format("must be greater than min_stage ({})", *checks.min_stage));
+    } else if (const auto min_stage = find(at, "min_stage")) {  // a change that wrote only this
+      cx.error(*min_stage, fmt::format("must be less than max_stage ({})", *checks.max_stage));
     }
   }
 }
 
+namespace {
+
 SiteConfig read_site(const At& at, Context& cx, units::System system) {
   SiteConfig site;
   bool section_ok = false;
+  std::optional<At> changes;
+  std::optional<At> corrections;
   const std::vector<Key<SiteConfig>> keys{
       {"id", required(), into(identifier(), &SiteConfig::id)},
       {"name", optional(), into(text(), &SiteConfig::name)},
@@ -122,12 +131,20 @@ SiteConfig read_site(const At& at, Context& cx, units::System system) {
        [system](const At& value, Context& c, SiteConfig& s) {
          read_map(value, stage_keys(system), c, s.stage);
        }},
-      {"checks", defaults("{}"), read_checks},
+      {"checks", defaults("{}"),
+       [](const At& value, Context& c, SiteConfig& s) { read_checks(value, c, s.checks, true); }},
       {"alarms", defaults("{}"),
        [](const At& value, Context& c, SiteConfig& s) { read_alarms(value, c, s.alarms); }},
+      // History (history_keys.cpp), read once the keys above are resolved.
+      {"changes", optional(),
+       [&changes](const At& value, Context&, SiteConfig&) { changes = value; }},
+      {"corrections", optional(),
+       [&corrections](const At& value, Context&, SiteConfig&) { corrections = value; }},
   };
   read_map(at, keys, cx, site);
   if (section_ok) check_roughness_count(at, cx, site);
+  if (changes) read_changes(*changes, cx, system, site);
+  if (corrections) read_corrections(*corrections, cx, site);
   if (site.name.empty()) site.name = site.id;
   site.line = line_of(at.mark);
   return site;

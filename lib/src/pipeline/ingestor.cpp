@@ -7,12 +7,10 @@
 #include <unordered_map>
 #include <vector>
 
-#include "site_json.hpp"
 #include "stagewell/alarms.hpp"
 #include "stagewell/checks.hpp"
 #include "stagewell/daily_keeper.hpp"
-#include "stagewell/rating.hpp"
-#include "supercritical.hpp"
+#include "stagewell/site_history.hpp"
 
 namespace stagewell {
 namespace {
@@ -41,13 +39,13 @@ void IngestCounts::add(const IngestCounts& other) {
 
 struct Ingestor::Site {
   const SiteConfig* config = nullptr;
-  std::shared_ptr<const Channel> channel;
-  std::unique_ptr<RatingTable> rating;
-  std::unique_ptr<SupercriticalDepths> supercritical;
+  // Segments of the site's history, their versions, channels and ratings (site_history.hpp).
+  std::optional<SiteHistory> history;
   SiteChecker checker;
+  // The checks `checker` applies: those in force at the time of the reading being checked. A
+  // reading in a period with other checks (a change) rebuilds the checker from the store.
+  ChecksSpec checks;
   SiteKey key;
-  ConfigVersionId version;
-  double top_depth = 0.0;  // length unit of the configuration
   // Time of the newest stored reading not flagged future, ms. A later reading cannot repeat a
   // stored one, so only readings at or before it need the store's look-up. (Future readings are
   // left out so that one wrong year does not put every later reading through the look-up; their
@@ -55,7 +53,8 @@ struct Ingestor::Site {
   std::optional<std::int64_t> newest_ms;
   std::optional<alarms::SiteAlarms> alarms;  // empty when the site has no alarms configured
 
-  explicit Site(const SiteConfig& site) : config(&site), checker(site.checks) {}
+  explicit Site(const SiteConfig& site)
+      : config(&site), checker(site.checks), checks(site.checks) {}
 };
 
 struct Ingestor::State {
@@ -91,12 +90,6 @@ struct Ingestor::State {
 };
 
 namespace {
-
-// The opposite of the out_of_range check (checks.hpp): min_stage <= stage <= max_stage.
-bool within_stage_range(const ChecksSpec& checks, double stage) {
-  return !(checks.min_stage && stage < *checks.min_stage) &&
-         !(checks.max_stage && stage > *checks.max_stage);
-}
 
 Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker,
                           std::optional<std::int64_t>& newest_ms) {
@@ -150,17 +143,15 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
   }
   for (const auto& site_config : state->config.sites) {
     auto site = std::make_unique<Site>(site_config);
-    site->channel = make_channel(site_config, state->config.units);
-    site->rating = std::make_unique<RatingTable>(site->channel);
-    site->top_depth = site->channel->section().top_depth();
-    site->supercritical = std::make_unique<SupercriticalDepths>(*site->channel, site->top_depth);
     auto key = state->store.ensure_site(site_config.id);
     if (!key) return std::unexpected(key.error());
     site->key = *key;
-    auto version =
-        state->store.record_config(*key, site_config_json(site_config, state->config.units), now);
-    if (!version) return std::unexpected(version.error());
-    site->version = *version;
+    auto history = SiteHistory::open(state->store, *key, site_config, state->config.units, now);
+    if (!history) return std::unexpected(history.error());
+    site->history.emplace(std::move(*history));
+    // The checks of the latest period: live readings are the newest.
+    site->checks = site->history->segments().back().keys->checks;
+    site->checker = SiteChecker(site->checks);
     if (auto seeded = seed_checker(state->store, site->key, site->checker, site->newest_ms);
         !seeded) {
       return std::unexpected(seeded.error());
@@ -210,7 +201,6 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
     return fail(ErrorKind::not_found, fmt::format("unknown site '{}'", record.site));
   }
   Site& site = *found->second;
-  const auto system = state_->config.units;
 
   // A repeat of a stored (site, time) is settled before the checks: a line read again after a
   // restart, or a second stage for a stored time, must not enter the site's check state, where it
@@ -226,39 +216,34 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
   // be stored, and the failed insert would spoil the whole batch (re-read, failing again, forever):
   // it is rejected before it reaches the checks. Only a reading inside the site's stage range gets
   // a discharge, and below the section's top the rating's discharges are finite.
-  if (const double depth = site.config->depth_for_stage(record.stage, system);
-      !std::isfinite(depth) ||
-      (within_stage_range(site.config->checks, record.stage) && depth > site.top_depth &&
-       !std::isfinite(site.channel->discharge(depth)))) {
+  if (site.history->unusable(record.time_ms, record.stage)) {
     return reject(
         "non_finite_stage",
         fmt::format("stage {} gives a depth or discharge too large to be a number", record.stage),
         at);
   }
 
+  // The checks in force at the reading's time (they change only at a change of the history).
+  if (const ChecksSpec& in_force = site.history->segment_at(record.time_ms).keys->checks;
+      !(in_force == site.checks)) {
+    site.checks = in_force;
+    site.checker = SiteChecker(site.checks);
+    if (auto seeded = seed_checker(state_->store, site.key, site.checker, site.newest_ms);
+        !seeded) {
+      return seeded;
+    }
+  }
   const CheckResult checked = site.checker.check(record.time_ms, record.stage, state_->clock());
+  const ComputedReading computed =
+      site.history->compute(record.time_ms, record.stage, checked.flags);
   StoredReading out;
   out.site = site.key;
   out.time_ms = record.time_ms;
   out.stage = record.stage;
-  out.config = site.version;
-  out.flags = checked.flags;
-  out.depth = site.config->depth_for_stage(record.stage, system);
-
-  if (out.flags.has(Flag::out_of_range)) {
-    out.discharge.reset();  // an implausible stage gives no discharge; the reading is still kept
-  } else if (out.depth <= 0.0) {
-    out.flags.set(Flag::below_zero_flow);
-    out.discharge = 0.0;
-  } else if (out.depth > site.top_depth) {
-    // Rare: the direct formula (vertical walls above an open section, a full pipe above a crown).
-    const HydraulicState state = site.channel->at_depth(out.depth);
-    out.flags |= state.flags;
-    out.discharge = state.discharge;
-  } else {
-    out.discharge = site.rating->discharge(out.depth);
-    if (site.supercritical->contains(out.depth)) out.flags.set(Flag::supercritical);
-  }
+  out.config = computed.config;
+  out.flags = computed.flags;
+  out.depth = computed.depth;
+  out.discharge = computed.discharge;
 
   auto batch = this->batch();
   if (!batch) return std::unexpected(batch.error());
@@ -394,8 +379,20 @@ Result<void> Ingestor::reset() {
   state_->pending = IngestCounts{};
   state_->alarm_log.clear();
   state_->notify(false);
+  return reload_site_state();
+}
+
+Result<void> Ingestor::stored_readings_rewritten() {
+  if (state_->batch) {
+    return fail(ErrorKind::invalid_argument, "stored readings rewritten while a batch is open");
+  }
+  if (state_->daily) state_->daily->forget();
+  return reload_site_state();
+}
+
+Result<void> Ingestor::reload_site_state() {
   for (auto& [id, site] : state_->sites) {
-    site->checker = SiteChecker(site->config->checks);
+    site->checker = SiteChecker(site->checks);
     if (auto seeded = seed_checker(state_->store, site->key, site->checker, site->newest_ms);
         !seeded) {
       return seeded;

@@ -42,7 +42,9 @@ nlohmann::json optional_json(const std::optional<T>& value) {
 
 }  // namespace
 
-std::string site_config_json(const SiteConfig& site, units::System system) {
+namespace {
+
+nlohmann::json site_json(const SiteConfig& site, units::System system) {
   // Keys sorted (nlohmann's default object is ordered by key), numbers in shortest round-trip
   // form: the same configuration always gives the same text, hence the same version.
   const nlohmann::json out = {
@@ -64,6 +66,24 @@ std::string site_config_json(const SiteConfig& site, units::System system) {
         {"max_gap_s", site.checks.max_gap_s},
         {"max_clock_skew_s", site.checks.max_clock_skew_s}}},
   };
+  return out;
+}
+
+}  // namespace
+
+std::string site_config_json(const SiteConfig& site, units::System system) {
+  return site_json(site, system).dump();
+}
+
+std::string site_config_json(const SiteConfig& site, units::System system,
+                             const StageCorrection* correction) {
+  nlohmann::json out = site_json(site, system);
+  if (correction != nullptr) {
+    out["correction"] = {{"from_ms", correction->from_ms},
+                         {"to_ms", correction->to_ms},
+                         {"offset", correction->offset},
+                         {"drift", correction->drift}};
+  }
   return out.dump();
 }
 

@@ -1,0 +1,184 @@
+// `stagewell reprocess`: recompute a site's stored readings whose configuration version is not
+// the one their period has now (after an edit of its history or corrections), on demand. The
+// daemon does the same by itself when it loads a configuration; this command is for a database
+// the daemon is not running on, or to see the summary.
+#include <fmt/format.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <csignal>
+#include <filesystem>
+#include <iostream>
+#include <limits>
+#include <memory>
+
+#include "commands.hpp"
+#include "stagewell/reprocess.hpp"
+#include "stagewell/store.hpp"
+#include "stagewell/timestamp.hpp"
+
+namespace stagewell::cli {
+namespace {
+
+// Readings per transaction: large enough that a step's fixed costs are small, small enough that
+// another writer (the daemon) waits well under a second for the lock.
+constexpr std::int64_t kStepReadings = 5000;
+
+struct ReprocessOptions {
+  std::string config_path;
+  std::string site;
+  std::string from;  // RFC 3339; empty: from the first reading
+  std::string to;    // RFC 3339, excluded; empty: to the last reading
+  bool quiet = false;
+};
+
+volatile std::sig_atomic_t g_interrupted = 0;
+
+void on_interrupt(int signal_number) {
+  if (g_interrupted != 0) {
+    std::signal(signal_number, SIG_DFL);
+    std::raise(signal_number);
+    return;
+  }
+  g_interrupted = signal_number;
+}
+
+// A bar on a terminal; a plain line every few seconds otherwise (logs, pipes).
+class Progress {
+ public:
+  explicit Progress(bool quiet) : quiet_(quiet), terminal_(::isatty(STDERR_FILENO) != 0) {}
+
+  void update(const std::string& site, const ReprocessTotals& totals, bool last) {
+    if (quiet_) return;
+    const auto now = std::chrono::steady_clock::now();
+    const auto interval = terminal_ ? std::chrono::milliseconds(100) : std::chrono::seconds(5);
+    if (now - last_ < interval && !last) return;
+    last_ = now;
+    const double fraction = totals.readings_in_period > 0
+                                ? static_cast<double>(totals.readings_walked) /
+                                      static_cast<double>(totals.readings_in_period)
+                                : 1.0;
+    if (terminal_) {
+      constexpr int kWidth = 30;
+      const int filled = static_cast<int>(fraction * kWidth);
+      std::cerr << fmt::format("\r{:<24.24} [{}{}] {:5.1f}%  {} readings changed", site,
+                               std::string(filled, '#'), std::string(kWidth - filled, '.'),
+                               100.0 * fraction, totals.readings_changed)
+                << std::flush;
+      if (last) std::cerr << '\n';
+    } else {
+      std::cerr << fmt::format("{}: {:.1f}% ({} of {} readings), {} readings changed\n", site,
+                               100.0 * fraction, totals.readings_walked, totals.readings_in_period,
+                               totals.readings_changed);
+    }
+  }
+
+ private:
+  bool quiet_;
+  bool terminal_;
+  std::chrono::steady_clock::time_point last_{};
+};
+
+void print_summary(const ReprocessTotals& totals, units::System system) {
+  const bool metric = system == units::System::metric;
+  if (!totals.period_from_ms) {
+    std::cout << "nothing to recompute: every reading was computed with its period's version\n";
+    return;
+  }
+  std::cout << fmt::format("period: {} to {}\n", format_timestamp_utc(*totals.period_from_ms),
+                           format_timestamp_utc(*totals.period_to_ms));
+  std::cout << fmt::format("readings recomputed: {} ({} with a new depth, discharge or flags)\n",
+                           totals.readings_recomputed, totals.readings_changed);
+  std::cout << fmt::format("max discharge change: {} {}\n",
+                           format_number(totals.max_discharge_change), metric ? "m^3/s" : "ft^3/s");
+  std::cout << fmt::format("days refreshed: {} (max daily volume change: {} {})\n",
+                           totals.days_refreshed, format_number(totals.max_daily_volume_change),
+                           metric ? "m^3" : "ft^3");
+  print_caution(std::cout);
+}
+
+std::optional<std::int64_t> parse_time_option(const std::string& text, std::string_view name,
+                                              std::int64_t absent) {
+  if (text.empty()) return absent;
+  auto parsed = parse_timestamp(text, nullptr);
+  if (!parsed) {
+    std::cerr << fmt::format(
+        "{} {}: {} (write RFC 3339 with an offset, e.g. "
+        "2025-06-01T00:00:00Z)\n",
+        name, text, parsed.error().message);
+    return std::nullopt;
+  }
+  return *parsed;
+}
+
+int run_reprocess(const ReprocessOptions& options) {
+  auto config = load_config_or_report(options.config_path);
+  if (!config) return kInvalidInput;
+  if (!find_site_or_report(*config, options.site)) return kInvalidInput;
+  const auto from =
+      parse_time_option(options.from, "--from", std::numeric_limits<std::int64_t>::min());
+  const auto to = parse_time_option(options.to, "--to", std::numeric_limits<std::int64_t>::max());
+  if (!from || !to) return kUsage;
+  if (*to <= *from) {
+    std::cerr << "--to must be after --from\n";
+    return kUsage;
+  }
+  if (!std::filesystem::exists(config->database)) {
+    std::cerr << "no database at " << config->database.string() << ": nothing to recompute\n";
+    return kInvalidInput;
+  }
+  auto store = Store::open(config->database);
+  if (!store) {
+    std::cerr << "cannot open the database " << config->database.string() << ": "
+              << store.error().message << '\n';
+    return kInvalidInput;
+  }
+  auto reprocessor = Reprocessor::plan(*store, *config, options.site, system_now_ms(), *from, *to);
+  if (!reprocessor) {
+    std::cerr << reprocessor.error().message << '\n';
+    return kInvalidInput;
+  }
+  std::signal(SIGINT, on_interrupt);
+  std::signal(SIGTERM, on_interrupt);
+  Progress progress(options.quiet);
+  auto& work = **reprocessor;
+  while (!work.done()) {
+    if (auto stepped = work.step(*store, kStepReadings); !stepped) {
+      std::cerr << "\nrecomputation failed: " << stepped.error().message
+                << " (what was committed stays; run again to finish)\n";
+      return kInvalidInput;
+    }
+    progress.update(options.site, work.totals(), work.done());
+    if (g_interrupted != 0 && !work.done()) {
+      std::cerr << "\ninterrupted; committed steps stay; run again to finish\n";
+      print_summary(work.totals(), config->units);
+      return 128 + static_cast<int>(g_interrupted);
+    }
+  }
+  print_summary(work.totals(), config->units);
+  return kOk;
+}
+
+}  // namespace
+
+void add_reprocess_command(CLI::App& program, Action& chosen) {
+  auto* command = program.add_subcommand(
+      "reprocess",
+      "Recompute a site's stored readings after its history or corrections were edited");
+  auto options = std::make_shared<ReprocessOptions>();
+  add_config_option(*command, options->config_path);
+  command->add_option("-s,--site", options->site, "The site to recompute")->required();
+  command->add_option("--from", options->from,
+                      "Only readings at or after this RFC 3339 time (e.g. 2025-06-01T00:00:00Z)");
+  command->add_option("--to", options->to, "Only readings before this RFC 3339 time");
+  command->add_flag("-q,--quiet", options->quiet, "No progress display");
+  command->footer(
+      "Recomputes the readings whose stored configuration version differs from the one their "
+      "period has in the configuration (changes and corrections), in transactions of 5000 "
+      "readings, and refreshes the daily figures of the days they touch. Running it again finds "
+      "nothing to do. Each run that recomputes something adds a row to the `changes` view.");
+  command->final_callback(
+      [&chosen, options] { chosen = [options] { return run_reprocess(*options); }; });
+}
+
+}  // namespace stagewell::cli

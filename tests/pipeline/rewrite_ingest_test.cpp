@@ -1,0 +1,85 @@
+// Readings rewritten on the Ingestor's own connection (as a recomputation does in the daemon)
+// while readings keep arriving in time order: after Ingestor::stored_readings_rewritten() the
+// daily figures kept batch by batch equal a full recomputation from the stored readings. Without
+// it the figures of the open day would mix the old discharges (kept in memory) with the new.
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "../store/store_test_support.hpp"
+#include "stagewell/config.hpp"
+#include "stagewell/daily.hpp"
+#include "stagewell/daily_keeper.hpp"
+#include "stagewell/ingestor.hpp"
+
+namespace stagewell {
+namespace {
+
+using test::TempDir;
+
+constexpr std::int64_t kT0 = 1'778'738'400'000;  // 2026-05-14T06:00:00Z (Python datetime)
+constexpr std::int64_t kMinute = 60'000;
+
+Config config_in(const TempDir& dir) {
+  const std::string text = "units: metric\ntimezone: UTC\ndatabase: " + dir.db().string() + R"(
+sites:
+  - id: raceway
+    section: {shape: rectangular, width: 2.0, height: 1.0}
+    roughness: 0.014
+    slope: 0.001
+)";
+  auto config = parse_config(text, "test.yaml", dir.path());
+  REQUIRE(config.has_value());
+  return std::move(*config);
+}
+
+void feed(Ingestor& ingestor, int from_minute, int to_minute) {
+  for (int m = from_minute; m < to_minute; ++m) {
+    const double stage = 0.3 + 0.1 * std::sin(m / 50.0);
+    REQUIRE(
+        ingestor.reading({"raceway", kT0 + m * kMinute, stage, 1}, {"test", 1, "raw"}).has_value());
+  }
+  REQUIRE(ingestor.commit().has_value());
+}
+
+TEST_CASE("daily figures stay exact when stored readings are rewritten between batches") {
+  TempDir dir;
+  const Config config = config_in(dir);
+  auto opened = Ingestor::open(config, IngestorOptions{}, [] { return kT0 + 86'400'000; });
+  REQUIRE(opened.has_value());
+  Ingestor& ingestor = **opened;
+  feed(ingestor, 0, 300);  // 06:00 to 11:00 of one UTC day
+
+  // A stand-in for a recomputation: every stored discharge doubled, on the same connection.
+  REQUIRE(ingestor.store()
+              .connection()
+              .exec("UPDATE readings SET discharge = 2 * discharge")
+              .has_value());
+  REQUIRE(ingestor.stored_readings_rewritten().has_value());
+  feed(ingestor, 300, 600);  // the same day goes on
+
+  auto site = ingestor.store().ensure_site("raceway");
+  REQUIRE(site.has_value());
+  const SiteKey key = *site;
+  auto readings = daily::read_readings(ingestor.store().connection(), key,
+                                       std::numeric_limits<std::int64_t>::min(),
+                                       std::numeric_limits<std::int64_t>::max());
+  REQUIRE(readings.has_value());
+  auto keeper = daily::DailyKeeper::create(config);
+  REQUIRE(keeper.has_value());
+  const auto want = daily::compute_days(*readings, keeper->calendar(),
+                                        daily::rules_for(config.sites.front(), config.daily));
+  auto got = daily::read_days(ingestor.store().connection(), key, daily::Day(2000, 1, 1),
+                              daily::Day(2100, 1, 1));
+  REQUIRE(got.has_value());
+  REQUIRE(got->size() == 1);
+  REQUIRE(want.size() == 1);
+  CHECK(got->front() == want.front());  // exactly: the same readings, the same arithmetic
+}
+
+}  // namespace
+}  // namespace stagewell
