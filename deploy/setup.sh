@@ -18,6 +18,7 @@ test_packages=(
   doctest-dev
   libbenchmark-dev
   python3-pandas python3-scipy   # independent references for the statistics tests
+  chromium chromium-driver       # a real browser for the status page test (headless)
 )
 
 wanted=("${build_packages[@]}")

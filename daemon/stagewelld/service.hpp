@@ -14,6 +14,7 @@
 #include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
 #include <vector>
 
+#include "http_server.hpp"  // http (issue 7)
 #include "logging.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
@@ -42,6 +43,8 @@ class Service {
   void reload();
   void shut_down();
   void commit_if_due();  // tcp sources (issue 5): acknowledge within the batch age
+  bool open_http();      // http (issue 7)
+  void stop_http();      // http (issue 7)
 
   boost::asio::io_context& io_;
   std::string config_path_;
@@ -50,7 +53,10 @@ class Service {
   boost::asio::steady_timer poll_timer_;
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
-  std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first
+  std::unique_ptr<TcpSources> tcp_;   // tcp sources (issue 5); declared after ingestor_: goes first
+  std::shared_ptr<HttpServer> http_;  // http (issue 7): the status page, API and metrics
+  IngestCounts carried_;              // http (issue 7): counts of Ingestors before a reload
+  std::int64_t started_ms_ = 0;       // http (issue 7): for the metrics
   bool stopping_ = false;
   bool poll_posted_ = false;
   int exit_code_ = 0;
