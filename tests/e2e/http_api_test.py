@@ -263,6 +263,14 @@ def main():
             R.check("alarms gauge 0 before the view exists",
                     m.get(("stagewell_alarms_available", "")) == 0)
             check_page(port)
+            # A reload (SIGHUP) closes and reopens the server; the counters carry on.
+            daemon.signal(signal.SIGHUP)
+            R.check("reloaded", ds.wait_until(lambda: "reloaded;" in daemon.log(), 20))
+            R.check("http port open after the reload", hs.wait_for_port(port))
+            status, headers, body = hs.get(port, "/metrics")
+            m = parse_metrics(body.decode())
+            R.check("stored counter carried across the reload",
+                    m.get(("stagewell_readings_stored_total", "")) == 2 * MINUTES)
             R.check("daemon stops cleanly", daemon.stop() == 0, daemon.log()[-2000:])
         add_fake_alarms(db)
         with ds.Daemon(stagewelld, config, log).start() as daemon:
