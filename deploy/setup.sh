@@ -19,6 +19,7 @@ test_packages=(
   libbenchmark-dev
   python3-pandas python3-scipy   # independent references for the statistics tests
   chromium chromium-driver       # a real browser for the status page test (headless)
+  fonts-dejavu-core              # so that its screenshot shows text
 )
 
 wanted=("${build_packages[@]}")
