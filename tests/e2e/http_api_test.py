@@ -233,7 +233,8 @@ def add_fake_alarms(db):
         INSERT INTO test_alarm_rows VALUES
           ('channel', 'high_stage', '2026-05-01T10:00:00Z', NULL, 0.52, 0.5),
           ('channel', 'low_flow', '2026-05-01T08:00:00Z', '2026-05-01T09:00:00Z', 0.1, 0.2),
-          ('canal', 'quiet_sensor', '2026-05-01T11:00:00Z', NULL, NULL, NULL);
+          ('canal', 'quiet_sensor', '2026-05-01T11:00:00Z', NULL, NULL, NULL),
+          ('silent', CAST(X'6869FF' AS TEXT), '2026-05-01T12:00:00Z', NULL, 1.0, 2.0);
         CREATE VIEW alarms AS SELECT site, kind, raised, cleared, value, threshold
                               FROM test_alarm_rows;""")
     con.commit()
@@ -283,6 +284,8 @@ def main():
                     m.get(("stagewell_alarm_active", 'site="channel",kind="low_flow"')) == 0)
             R.check("other site's alarm = 1",
                     m.get(("stagewell_alarm_active", 'site="canal",kind="quiet_sensor"')) == 1)
+            R.check("a kind that is not UTF-8: U+FFFD in the label (metrics are UTF-8)",
+                    m.get(("stagewell_alarm_active", 'site="silent",kind="hi\ufffd"')) == 1)
             status, data = hs.get_json(port, "/api/sites")
             by_id = {s["id"]: s for s in data["sites"]}
             R.check("api: open alarms only", by_id["channel"]["alarms"] == [
@@ -290,6 +293,9 @@ def main():
                  "threshold": 0.5}], by_id["channel"]["alarms"])
             R.check("api: alarm without value", by_id["canal"]["alarms"][0]["value"] is None)
             R.check("api: alarms available", data["alarms_available"] is True)
+            # Bytes that are not UTF-8 in the view: replaced (U+FFFD), the answer still whole.
+            R.check("api: a kind that is not UTF-8", status == 200 and
+                    by_id["silent"]["alarms"][0]["kind"] == "hi\ufffd", by_id["silent"]["alarms"])
             R.check("daemon stops cleanly (2)", daemon.stop() == 0, daemon.log()[-2000:])
     ds.exit_with(R)
 

@@ -13,10 +13,40 @@
 namespace stagewell::web_detail {
 namespace {
 
-// Label values escape backslash, double quote and line feed (both formats).
+// The length of the UTF-8 sequence (RFC 3629, section 4) starting at text[i], 0 when invalid.
+std::size_t utf8_length(std::string_view text, std::size_t i) {
+  const auto byte = [&](std::size_t k) { return static_cast<unsigned char>(text[k]); };
+  const unsigned char lead = byte(i);
+  std::size_t length = 0;
+  unsigned low = 0x80, high = 0xBF;  // bounds of the second byte
+  if (lead < 0x80) return 1;
+  if (lead >= 0xC2 && lead <= 0xDF) length = 2;
+  if (lead >= 0xE0 && lead <= 0xEF) length = 3;
+  if (lead >= 0xF0 && lead <= 0xF4) length = 4;
+  if (lead == 0xE0) low = 0xA0;   // no overlong forms
+  if (lead == 0xED) high = 0x9F;  // no surrogates
+  if (lead == 0xF0) low = 0x90;
+  if (lead == 0xF4) high = 0x8F;  // nothing above U+10FFFF
+  if (length == 0 || i + length > text.size()) return 0;
+  if (byte(i + 1) < low || byte(i + 1) > high) return 0;
+  for (std::size_t k = 2; k < length; ++k) {
+    if (byte(i + k) < 0x80 || byte(i + k) > 0xBF) return 0;
+  }
+  return length;
+}
+
+// Label values escape backslash, double quote and line feed (both formats), and must be UTF-8:
+// a byte that is not is replaced by U+FFFD (text from a view another module fills).
 std::string escape(std::string_view value) {
   std::string out;
-  for (const char c : value) {
+  for (std::size_t i = 0; i < value.size();) {
+    const std::size_t length = utf8_length(value, i);
+    if (length == 0) {
+      out += "\xEF\xBF\xBD";
+      ++i;
+      continue;
+    }
+    const char c = value[i];
     if (c == '\\') {
       out += "\\\\";
     } else if (c == '"') {
@@ -24,8 +54,9 @@ std::string escape(std::string_view value) {
     } else if (c == '\n') {
       out += "\\n";
     } else {
-      out += c;
+      out.append(value.substr(i, length));
     }
+    i += length;
   }
   return out;
 }

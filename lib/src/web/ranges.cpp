@@ -103,7 +103,7 @@ Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& si
                   {"discharge_unit", units::discharge_symbol(state.config.units)},
                   {"truncated", truncated},
                   {"readings", std::move(readings)}};
-  return json_answer(200, body.dump());
+  return json_answer(200, to_text(body));
 }
 
 Result<HttpAnswer> daily_answer(StatusApi::State& state, const SiteConfig& site,
@@ -163,7 +163,7 @@ Result<HttpAnswer> daily_answer(StatusApi::State& state, const SiteConfig& site,
                   {"volume_unit", units::volume_symbol(state.config.units)},
                   {"discharge_unit", units::discharge_symbol(state.config.units)},
                   {"days", std::move(days)}};
-  return json_answer(200, body.dump());
+  return json_answer(200, to_text(body));
 }
 
 }  // namespace stagewell::web_detail

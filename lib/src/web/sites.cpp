@@ -123,7 +123,7 @@ Result<HttpAnswer> sites_answer(StatusApi::State& state, std::int64_t now_ms) {
                   {"alarms_available", *alarms_known},
                   {"caution", kDischargeCaution},
                   {"sites", std::move(sites)}};
-  return json_answer(200, body.dump());
+  return json_answer(200, to_text(body));
 }
 
 }  // namespace stagewell::web_detail

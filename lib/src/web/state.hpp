@@ -3,6 +3,7 @@
 #pragma once
 
 #include <map>
+#include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
 
@@ -36,6 +37,9 @@ Result<bool> has_alarms(StatusApi::State& state);
 std::vector<std::string> flag_names(std::int64_t bits);
 
 HttpAnswer json_answer(int status, const std::string& body);
+// JSON text; bytes that are not UTF-8 (from a view another module fills) become U+FFFD rather
+// than failing the whole answer.
+std::string to_text(const nlohmann::json& value);
 
 // The answers. Errors in the request are answered here (400, 404); a Result error is a failed
 // query (500).

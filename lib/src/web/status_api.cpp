@@ -13,9 +13,10 @@
 namespace stagewell {
 
 using web_detail::json_answer;
+using web_detail::to_text;
 
 HttpAnswer json_error(int status, std::string_view message) {
-  return json_answer(status, nlohmann::json{{"error", message}}.dump());
+  return json_answer(status, to_text(nlohmann::json{{"error", message}}));
 }
 
 namespace web_detail {
@@ -27,6 +28,10 @@ HttpAnswer json_answer(int status, const std::string& body) {
   answer.headers.emplace_back("Cache-Control", "no-store");
   answer.body = body;
   return answer;
+}
+
+std::string to_text(const nlohmann::json& value) {
+  return value.dump(-1, ' ', false, nlohmann::json::error_handler_t::replace);
 }
 
 Result<std::optional<SiteKey>> site_key(StatusApi::State& state, const std::string& id) {
