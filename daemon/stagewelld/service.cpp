@@ -119,8 +119,8 @@ bool Service::open(const Config& config) {
   }
   // ---- tcp sources (issue 5): listeners on this io_context; see tcp_listener.hpp ----
   tcp_.reset();
-  auto tcp = TcpSources::open(
-      io_, *ingestor_, {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
+  auto tcp = TcpSources::open(io_, *ingestor_,
+                              {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
   if (!tcp) {
     spdlog::error("{}", tcp.error().message);
     return false;

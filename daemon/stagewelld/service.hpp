@@ -53,10 +53,13 @@ class Service {
   boost::asio::steady_timer poll_timer_;
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
-  std::unique_ptr<TcpSources> tcp_;   // tcp sources (issue 5); declared after ingestor_: goes first
-  std::shared_ptr<HttpServer> http_;  // http (issue 7): the status page, API and metrics
-  IngestCounts carried_;              // http (issue 7): counts of Ingestors before a reload
-  std::int64_t started_ms_ = 0;       // http (issue 7): for the metrics
+  std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first
+
+  // http (issue 7): the status page, API and metrics; the counts of Ingestors before a reload and
+  // the start time, for the metrics.
+  std::shared_ptr<HttpServer> http_;
+  IngestCounts carried_;
+  std::int64_t started_ms_ = 0;
   bool stopping_ = false;
   bool poll_posted_ = false;
   int exit_code_ = 0;

@@ -73,23 +73,22 @@ struct ColumnNames {
 // acknowledged once stored (protocol: README, "Readings over TCP"). Limits bound what one client
 // can make the service hold.
 struct TcpSpec {
-  std::string address = "127.0.0.1";  // IP address to listen on, as written (IPv4 or IPv6)
-  int port = 7207;                    // TCP port, 1 to 65535
-  bool loopback = true;               // address is 127.0.0.0/8 or ::1
-  std::optional<std::string> secret;  // clients send it first; required unless loopback
-  std::size_t max_line_bytes = 4096;  // longest line, bytes, without its line ending
-  int max_clients = 64;               // connections at once; more are refused
-  double idle_timeout_s = 300.0;      // nothing moving either way this long: closed
-  double auth_timeout_s = 10.0;       // no `auth` line this long after connecting: refused
-  std::size_t max_reply_bytes =
-      65536;  // replies a client leaves unread, bytes, before it is closed
+  std::string address = "127.0.0.1";   // IP address to listen on, as written (IPv4 or IPv6)
+  int port = 7207;                      // TCP port, 1 to 65535
+  bool loopback = true;                 // address is 127.0.0.0/8 or ::1
+  std::optional<std::string> secret;    // clients send it first; required unless loopback
+  std::size_t max_line_bytes = 4096;    // longest line, bytes, without its line ending
+  int max_clients = 64;                 // connections at once; more are refused
+  double idle_timeout_s = 300.0;        // nothing moving either way this long: closed
+  double auth_timeout_s = 10.0;         // no `auth` line this long after connecting: refused
+  std::size_t max_reply_bytes = 65536;  // replies a client leaves unread, bytes, before it is closed
 };
 
 // A place readings come from.
 struct SourceSpec {
   enum class Type { directory, tail, tcp };
   Type type = Type::directory;
-  TcpSpec tcp;                      // type tcp only (path is then empty)
+  TcpSpec tcp;  // type tcp only (path is then empty)
   std::filesystem::path path;       // absolute after loading
   std::optional<std::string> site;  // every reading belongs to this site (no site column)
   ColumnNames columns;
@@ -121,9 +120,9 @@ struct DailySpec {
 struct HttpSpec {
   std::string address = "127.0.0.1";  // IP address to listen on, as written (IPv4 or IPv6)
   int port = 8207;                    // TCP port, 1 to 65535
-  bool loopback = true;             // address is 127.0.0.0/8 or ::1 (otherwise a warning is logged)
-  int max_connections = 32;         // connections at once; more are answered 503 and closed
-  double request_timeout_s = 10.0;  // a request's header must arrive whole within this; also idle
+  bool loopback = true;               // 127.0.0.0/8 or ::1; otherwise a warning is logged
+  int max_connections = 32;           // connections at once; more are answered 503 and closed
+  double request_timeout_s = 10.0;    // a request's header must arrive whole within this; idle
 };
 
 struct Config {

@@ -23,9 +23,8 @@ void read_flag_treatments(const At& at, Context& cx, DailySpec& out) {
                       const auto choice = one_of({"include", "exclude", "bridge"})(value, c);
                       if (!choice) return;
                       if (flag == Flag::out_of_range && *choice == "include") {
-                        c.error(value,
-                                "out_of_range readings have no discharge to include: "
-                                "write exclude or bridge");
+                        c.error(value, "out_of_range readings have no discharge to include: "
+                                       "write exclude or bridge");
                         return;
                       }
                       spec.excluded.clear(flag);
