@@ -46,6 +46,7 @@ feeder=$!
 cat <<EOM
 
 == stagewelld is running on $config (pid $daemon); Ctrl-C stops it.
+   status page: http://127.0.0.1:8207/   (API: /api/sites, metrics: /metrics)
    database:  $(realpath "$database")
    log:       $(realpath "$demo")/stagewell.log
    drop CSV files (site,time,stage) into $(realpath "$demo/incoming")

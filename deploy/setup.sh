@@ -18,6 +18,8 @@ test_packages=(
   doctest-dev
   libbenchmark-dev
   python3-pandas python3-scipy   # independent references for the statistics tests
+  chromium chromium-driver       # a real browser for the status page test (headless)
+  fonts-dejavu-core              # so that its screenshot shows text
 )
 
 wanted=("${build_packages[@]}")

@@ -88,6 +88,7 @@ bool Service::start() {
     return false;
   }
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
+  started_ms_ = system_now_ms();
   if (!open(*config)) return false;
   signals_.add(SIGINT);
   signals_.add(SIGTERM);
@@ -132,6 +133,7 @@ bool Service::open(const Config& config) {
   }
   tcp_ = std::move(*tcp);
   // ---- end of tcp sources ----
+  if (!open_http()) return false;  // http (issue 7)
   const auto& loaded = ingestor_->config();
   std::string site_ids;
   for (const auto& site : loaded.sites) site_ids += (site_ids.empty() ? "" : ", ") + site.id;
@@ -241,6 +243,38 @@ void Service::schedule_alarm_tick() {
   });
 }
 
+// ---- http (issue 7): the status page, API and metrics (http_server.hpp) ----
+bool Service::open_http() {
+  stop_http();
+  const Config& config = ingestor_->config();
+  if (!config.http) return true;
+  // The read-only reader opens after the Ingestor, which has brought the schema up to date.
+  auto api = StatusApi::open(config, [this] {
+    LiveFigures live;
+    live.counts = carried_;
+    if (ingestor_) live.counts.add(ingestor_->counts());
+    live.started_ms = started_ms_;
+    return live;
+  });
+  if (!api) {
+    spdlog::error("http: cannot open the database for reading: {}", api.error().message);
+    return false;
+  }
+  auto server = HttpServer::open(io_, *config.http, std::move(*api));
+  if (!server) {
+    spdlog::error("{}", server.error().message);
+    return false;
+  }
+  http_ = std::move(*server);
+  return true;
+}
+
+void Service::stop_http() {
+  if (http_) http_->stop();
+  http_.reset();
+}
+// ---- end of http ----
+
 void Service::wait_for_signal() {
   signals_.async_wait([this](const boost::system::error_code& error, int signal_number) {
     if (error) return;  // cancelled at shutdown
@@ -268,6 +302,7 @@ void Service::shut_down() {
   poll_timer_.cancel();
   alarm_timer_.cancel();
   if (tcp_) tcp_->stop();  // tcp sources (issue 5): read no more; close once acknowledged
+  stop_http();             // http (issue 7)
   if (ingestor_) {
     if (auto committed = ingestor_->commit(); !committed) {
       spdlog::error("final commit failed: {}; that input will be read again at the next start",
@@ -300,7 +335,9 @@ void Service::reload() {
   auto old_sources = std::move(sources_);
   sources_.clear();
   old_sources.clear();
-  tcp_.reset();          // tcp sources (issue 5): closes their connections before the Ingestor goes
+  tcp_.reset();  // tcp sources (issue 5): closes their connections before the Ingestor goes
+  stop_http();   // http (issue 7): frees the port and the read-only connection
+  carried_.add(totals);
   old_ingestor.reset();  // closes the database before it is opened again
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
   if (!open(*config)) {

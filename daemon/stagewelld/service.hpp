@@ -15,6 +15,7 @@
 #include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
 #include <vector>
 
+#include "http_server.hpp"  // http (issue 7)
 #include "logging.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
@@ -50,6 +51,8 @@ class Service {
   void plan_reprocessing();
   void post_reprocess_step();
   void reprocess_step();
+  bool open_http();  // http (issue 7)
+  void stop_http();  // http (issue 7)
 
   boost::asio::io_context& io_;
   std::string config_path_;
@@ -62,6 +65,12 @@ class Service {
   std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first
   std::vector<std::unique_ptr<Reprocessor>> reprocess_;  // history: sites left to recompute
   bool reprocess_posted_ = false;
+
+  // http (issue 7): the status page, API and metrics; the counts of Ingestors before a reload and
+  // the start time, for the metrics.
+  std::shared_ptr<HttpServer> http_;
+  IngestCounts carried_;
+  std::int64_t started_ms_ = 0;
   bool stopping_ = false;
   bool poll_posted_ = false;
   int exit_code_ = 0;

@@ -174,6 +174,16 @@ struct DailySpec {
   Flags bridged = Flag::spike;
 };
 
+// `http:` the status page, JSON API and metrics served by the service (README, "HTTP: the status
+// page, API and metrics"). Read-only: GET and HEAD. Absent: no server.
+struct HttpSpec {
+  std::string address = "127.0.0.1";  // IP address to listen on, as written (IPv4 or IPv6)
+  int port = 8207;                    // TCP port, 1 to 65535
+  bool loopback = true;               // 127.0.0.0/8 or ::1; otherwise a warning is logged
+  int max_connections = 32;           // connections at once; more are answered 503 and closed
+  double request_timeout_s = 10.0;    // a request's header must arrive whole within this; idle
+};
+
 struct Config {
   std::filesystem::path file;  // the file it was read from (absolute), or parse_config's name
   units::System units = units::System::metric;
@@ -183,6 +193,7 @@ struct Config {
   std::vector<SourceSpec> sources;
   LogSpec log;
   DailySpec daily;
+  std::optional<HttpSpec> http;  // http (issue 7): empty when `http:` is not written
 
   const SiteConfig* find_site(std::string_view id) const;  // nullptr when unknown
 };

@@ -4,6 +4,7 @@
 #include <fstream>
 #include <sstream>
 
+#include "config/http_keys.hpp"
 #include "config/key_table.hpp"
 #include "config/readers.hpp"
 #include "config/value_readers.hpp"
@@ -58,6 +59,7 @@ const std::vector<Key<Config>>& top_keys() {
       {"sites", required(), read_sites},
       {"sources", defaults("[]"), read_sources},
       {"daily", defaults("{}"), read_daily},
+      {"http", optional(), read_http},  // http (issue 7): no server unless written
   };
   return keys;
 }

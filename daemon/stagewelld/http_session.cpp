@@ -1,0 +1,132 @@
+#include "http_session.hpp"
+
+#include <fmt/format.h>
+#include <spdlog/spdlog.h>
+
+#include <boost/beast/http/error.hpp>
+#include <boost/beast/http/read.hpp>
+#include <boost/beast/http/write.hpp>
+#include <chrono>
+
+#include "http_server.hpp"
+#include "stagewell/timestamp.hpp"
+
+namespace stagewell::service {
+namespace {
+
+namespace beast = boost::beast;
+namespace http = beast::http;
+using boost::system::error_code;
+
+// The read buffer's ceiling, bytes: room for the largest header and body the parser accepts, so
+// that the parser's own limits (431, 413) are what a client meets.
+constexpr std::size_t kBufferBytes = 2 * (kMaxHeaderBytes + kMaxBodyBytes);
+
+std::chrono::milliseconds timeout_of(const HttpSpec& spec) {
+  return std::chrono::milliseconds(static_cast<std::int64_t>(spec.request_timeout_s * 1000.0));
+}
+
+}  // namespace
+
+HttpSession::HttpSession(boost::asio::ip::tcp::socket socket, std::weak_ptr<HttpServer> server)
+    : stream_(std::move(socket)), server_(std::move(server)), buffer_(kBufferBytes) {}
+
+HttpSession::~HttpSession() {
+  if (auto server = server_.lock()) server->remove(this);
+}
+
+void HttpSession::start() { read(); }
+
+void HttpSession::close() {
+  error_code ignored;
+  stream_.socket().shutdown(boost::asio::ip::tcp::socket::shutdown_both, ignored);
+  stream_.close();
+}
+
+void HttpSession::read() {
+  auto server = server_.lock();
+  if (!server) return close();
+  parser_.emplace();
+  parser_->header_limit(kMaxHeaderBytes);
+  parser_->body_limit(kMaxBodyBytes);
+  // One deadline for the whole request (not per byte): a client that trickles its header is
+  // closed at the deadline however slowly it sends. Between requests it is the idle timeout.
+  stream_.expires_after(timeout_of(server->spec()));
+  http::async_read(
+      stream_, buffer_, *parser_,
+      [self = shared_from_this()](const error_code& error, std::size_t) { self->on_read(error); });
+}
+
+void HttpSession::on_read(const error_code& error) {
+  if (error == http::error::end_of_stream || error == boost::asio::error::operation_aborted ||
+      error == beast::error::timeout || error == boost::asio::error::connection_reset ||
+      error == boost::asio::error::eof) {
+    return close();  // the client left, was too slow, or the server stops
+  }
+  // RFC 9110 15.5.14 (413 Content Too Large); RFC 6585 5 (431 Request Header Fields Too Large).
+  if (error == http::error::header_limit || error == http::error::buffer_overflow) {
+    return refuse(431, fmt::format("the request header is larger than {} bytes", kMaxHeaderBytes));
+  }
+  if (error == http::error::body_limit) {
+    return refuse(413, fmt::format("the request body is larger than {} bytes; GET and HEAD "
+                                   "need none",
+                                   kMaxBodyBytes));
+  }
+  if (error) {
+    spdlog::debug("http: bad request: {}", error.message());
+    return refuse(400, fmt::format("malformed request: {}", error.message()));
+  }
+  answer();
+}
+
+void HttpSession::answer() {
+  auto server = server_.lock();
+  if (!server) return close();
+  const auto& request = parser_->get();
+  head_ = request.method() == http::verb::head;
+  const auto accept = request[http::field::accept];
+  HttpAnswer answer = server->api().answer(
+      std::string_view(request.method_string().data(), request.method_string().size()),
+      std::string_view(request.target().data(), request.target().size()),
+      std::string_view(accept.data(), accept.size()), system_now_ms());
+  spdlog::debug("http: {} {} -> {}", std::string_view(request.method_string()),
+                std::string_view(request.target()), answer.status);
+  response_ = {};
+  response_.version(request.version());
+  response_.result(static_cast<unsigned>(answer.status));
+  response_.set(http::field::server, "stagewelld");
+  response_.set(http::field::content_type, answer.content_type);
+  response_.set("X-Content-Type-Options", "nosniff");
+  for (const auto& [name, value] : answer.headers) response_.set(name, value);
+  response_.body() = std::move(answer.body);
+  response_.prepare_payload();
+  write(request.keep_alive());
+}
+
+void HttpSession::refuse(int status, std::string_view message) {
+  HttpAnswer answer = json_error(status, message);
+  head_ = false;
+  response_ = {};
+  response_.version(11);
+  response_.result(static_cast<unsigned>(status));
+  response_.set(http::field::server, "stagewelld");
+  response_.set(http::field::content_type, answer.content_type);
+  response_.body() = std::move(answer.body);
+  response_.prepare_payload();
+  write(false);  // the rest of what the client sent cannot be trusted to frame a next request
+}
+
+void HttpSession::write(bool keep_alive) {
+  response_.keep_alive(keep_alive);
+  if (head_) response_.body().clear();  // the Content-Length of the GET answer stays
+  auto server = server_.lock();
+  if (!server) return close();
+  stream_.expires_after(timeout_of(server->spec()));
+  http::async_write(stream_, response_,
+                    [self = shared_from_this(), keep_alive](const error_code& error, std::size_t) {
+                      if (error || !keep_alive) return self->close();
+                      self->read();
+                    });
+}
+
+}  // namespace stagewell::service

@@ -1,0 +1,48 @@
+// One HTTP connection of the HttpServer: reads a request within the limits, answers it from the
+// StatusApi, and either reads the next (keep-alive) or closes.
+#pragma once
+
+// clang-format off
+#include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
+// clang-format on
+#include <boost/asio/ip/tcp.hpp>
+#include <boost/beast/core/flat_buffer.hpp>
+#include <boost/beast/core/tcp_stream.hpp>
+#include <boost/beast/http/message.hpp>
+#include <boost/beast/http/parser.hpp>
+#include <boost/beast/http/string_body.hpp>
+#include <memory>
+#include <optional>
+
+namespace stagewell::service {
+
+class HttpServer;
+
+// Longest request header (request line and fields), bytes: longer is answered 431.
+inline constexpr std::size_t kMaxHeaderBytes = 8 * 1024;
+// Longest request body, bytes: GET and HEAD carry none; longer is answered 413.
+inline constexpr std::size_t kMaxBodyBytes = 1024;
+
+class HttpSession : public std::enable_shared_from_this<HttpSession> {
+ public:
+  HttpSession(boost::asio::ip::tcp::socket socket, std::weak_ptr<HttpServer> server);
+  ~HttpSession();
+  void start();
+  void close();
+
+ private:
+  void read();
+  void on_read(const boost::system::error_code& error);
+  void answer();
+  void refuse(int status, std::string_view message);
+  void write(bool keep_alive);
+
+  boost::beast::tcp_stream stream_;
+  std::weak_ptr<HttpServer> server_;
+  boost::beast::flat_buffer buffer_;
+  std::optional<boost::beast::http::request_parser<boost::beast::http::string_body>> parser_;
+  boost::beast::http::response<boost::beast::http::string_body> response_;
+  bool head_ = false;  // the request was HEAD: send the header fields only
+};
+
+}  // namespace stagewell::service

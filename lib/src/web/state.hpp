@@ -1,0 +1,56 @@
+// What every answer of the StatusApi reads from: the configuration, the read-only store, the
+// configuration's time zone and the service's live figures; and the answers, one file each.
+#pragma once
+
+#include <map>
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+
+#include "stagewell/status_api.hpp"
+#include "stagewell/store.hpp"
+#include "stagewell/timestamp.hpp"
+#include "web/target.hpp"
+
+namespace stagewell {
+
+struct StatusApi::State {
+  Config config;
+  Store store;
+  TimeZone zone;  // of the daily figures: "today" is the local day here
+  LiveFiguresSource live;
+  std::map<std::string, SiteKey, std::less<>> site_keys;  // found on first use
+};
+
+namespace web_detail {
+
+// The store key of a configured site; nullopt when the database has no row for it yet.
+Result<std::optional<SiteKey>> site_key(StatusApi::State& state, const std::string& id);
+
+// The local day ("YYYY-MM-DD") of `time_ms` in the configuration's time zone.
+std::string local_day(const StatusApi::State& state, std::int64_t time_ms);
+
+// Whether the database has an `alarms` table or view (added by a later schema).
+Result<bool> has_alarms(StatusApi::State& state);
+
+// Flag names of a stored flag bitmask, in flag order.
+std::vector<std::string> flag_names(std::int64_t bits);
+
+HttpAnswer json_answer(int status, const std::string& body);
+// JSON text; bytes that are not UTF-8 (from a view another module fills) become U+FFFD rather
+// than failing the whole answer.
+std::string to_text(const nlohmann::json& value);
+
+// The answers. Errors in the request are answered here (400, 404); a Result error is a failed
+// query (500).
+Result<HttpAnswer> sites_answer(StatusApi::State& state, std::int64_t now_ms);
+Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& site,
+                                   const Target& target, std::int64_t now_ms);
+Result<HttpAnswer> daily_answer(StatusApi::State& state, const SiteConfig& site,
+                                const Target& target, std::int64_t now_ms);
+Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view accept,
+                                  std::int64_t now_ms);
+HttpAnswer page_answer();
+
+}  // namespace web_detail
+}  // namespace stagewell
