@@ -3,15 +3,13 @@
 // finished file is not read twice (unless --again).
 #include <fmt/format.h>
 #include <spdlog/spdlog.h>
-#include <unistd.h>
 
-#include <chrono>
-#include <csignal>
 #include <filesystem>
 #include <iostream>
 #include <memory>
 
 #include "commands.hpp"
+#include "progress.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
 #include "stagewell/timestamp.hpp"
@@ -28,41 +26,6 @@ struct IngestOptions {
   std::string time_zone;  // for timestamps without an offset
   bool again = false;
   bool quiet = false;
-};
-
-// A progress bar on a terminal; a plain line every few seconds otherwise (logs, pipes).
-class ProgressDisplay {
- public:
-  explicit ProgressDisplay(bool quiet) : quiet_(quiet), terminal_(::isatty(STDERR_FILENO) != 0) {}
-
-  void update(const std::string& name, std::int64_t done, std::int64_t total, std::int64_t stored) {
-    if (quiet_) return;
-    const auto now = std::chrono::steady_clock::now();
-    const auto interval = terminal_ ? std::chrono::milliseconds(100) : std::chrono::seconds(5);
-    if (now - last_ < interval && done < total) return;
-    last_ = now;
-    const double fraction =
-        total > 0 ? static_cast<double>(done) / static_cast<double>(total) : 1.0;
-    if (terminal_) {
-      constexpr int kWidth = 30;
-      const int filled = static_cast<int>(fraction * kWidth);
-      std::cerr << fmt::format("\r{:<24.24} [{}{}] {:5.1f}%  {} readings stored", name,
-                               std::string(filled, '#'), std::string(kWidth - filled, '.'),
-                               100.0 * fraction, stored)
-                << std::flush;
-    } else {
-      std::cerr << fmt::format("{}: {:.1f}% ({} of {} bytes), {} readings stored\n", name,
-                               100.0 * fraction, done, total, stored);
-    }
-  }
-  void end_line() {
-    if (!quiet_ && terminal_) std::cerr << '\n';
-  }
-
- private:
-  bool quiet_;
-  bool terminal_;
-  std::chrono::steady_clock::time_point last_{};
 };
 
 void print_summary(const IngestCounts& counts, std::int64_t files) {
@@ -84,20 +47,6 @@ void print_summary(const IngestCounts& counts, std::int64_t files) {
   }
 }
 
-// The signal that interrupted the run (SIGINT or SIGTERM), 0 while none has.
-volatile std::sig_atomic_t g_interrupted = 0;
-
-// First signal: finish the current chunk, commit, and stop. A second one ends the process at once
-// (signal() and raise() are async-signal-safe).
-void on_interrupt(int signal_number) {
-  if (g_interrupted != 0) {
-    std::signal(signal_number, SIG_DFL);
-    std::raise(signal_number);
-    return;
-  }
-  g_interrupted = signal_number;
-}
-
 // After SIGINT or SIGTERM: commit what was read, summarise, and exit with 128 + the signal's
 // number (the shell's convention for a process ended by a signal: 130 for Ctrl-C).
 int stop_interrupted(Ingestor& ingestor, std::int64_t files) {
@@ -108,7 +57,7 @@ int stop_interrupted(Ingestor& ingestor, std::int64_t files) {
     std::cerr << "interrupted; committed what was read; run again to resume\n";
   }
   print_summary(ingestor.counts(), files);
-  return 128 + static_cast<int>(g_interrupted);
+  return 128 + interrupted_by();
 }
 
 int run_ingest(const IngestOptions& options) {
@@ -138,8 +87,7 @@ int run_ingest(const IngestOptions& options) {
     return kInvalidInput;
   }
   // SIGINT or SIGTERM: stop after the current chunk and commit, so the next run resumes.
-  std::signal(SIGINT, on_interrupt);
-  std::signal(SIGTERM, on_interrupt);
+  catch_interrupts();
 
   ProgressDisplay display(options.quiet);
   int exit_code = kOk;
@@ -180,16 +128,17 @@ int run_ingest(const IngestOptions& options) {
         }
       }
       display.update(fs::path(path).filename().string(), (*reader)->done_bytes(),
-                     (*reader)->size_bytes(), (*ingestor)->counts().stored);
+                     (*reader)->size_bytes(), "bytes",
+                     fmt::format("{} readings stored", (*ingestor)->counts().stored));
       if (*finished) break;
-      if (g_interrupted != 0) {
+      if (interrupted_by() != 0) {
         display.end_line();
         return stop_interrupted(**ingestor, files);
       }
     }
     display.end_line();
     ++files;
-    if (g_interrupted != 0 && &path != &options.paths.back()) {
+    if (interrupted_by() != 0 && &path != &options.paths.back()) {
       return stop_interrupted(**ingestor, files);
     }
   }

@@ -3,16 +3,14 @@
 // daemon does the same by itself when it loads a configuration; this command is for a database
 // the daemon is not running on, or to see the summary.
 #include <fmt/format.h>
-#include <unistd.h>
 
-#include <chrono>
-#include <csignal>
 #include <filesystem>
 #include <iostream>
 #include <limits>
 #include <memory>
 
 #include "commands.hpp"
+#include "progress.hpp"
 #include "stagewell/reprocess.hpp"
 #include "stagewell/store.hpp"
 #include "stagewell/timestamp.hpp"
@@ -30,53 +28,6 @@ struct ReprocessOptions {
   std::string from;  // RFC 3339; empty: from the first reading
   std::string to;    // RFC 3339, excluded; empty: to the last reading
   bool quiet = false;
-};
-
-volatile std::sig_atomic_t g_interrupted = 0;
-
-void on_interrupt(int signal_number) {
-  if (g_interrupted != 0) {
-    std::signal(signal_number, SIG_DFL);
-    std::raise(signal_number);
-    return;
-  }
-  g_interrupted = signal_number;
-}
-
-// A bar on a terminal; a plain line every few seconds otherwise (logs, pipes).
-class Progress {
- public:
-  explicit Progress(bool quiet) : quiet_(quiet), terminal_(::isatty(STDERR_FILENO) != 0) {}
-
-  void update(const std::string& site, const ReprocessTotals& totals, bool last) {
-    if (quiet_) return;
-    const auto now = std::chrono::steady_clock::now();
-    const auto interval = terminal_ ? std::chrono::milliseconds(100) : std::chrono::seconds(5);
-    if (now - last_ < interval && !last) return;
-    last_ = now;
-    const double fraction = totals.readings_in_period > 0
-                                ? static_cast<double>(totals.readings_walked) /
-                                      static_cast<double>(totals.readings_in_period)
-                                : 1.0;
-    if (terminal_) {
-      constexpr int kWidth = 30;
-      const int filled = static_cast<int>(fraction * kWidth);
-      std::cerr << fmt::format("\r{:<24.24} [{}{}] {:5.1f}%  {} readings changed", site,
-                               std::string(filled, '#'), std::string(kWidth - filled, '.'),
-                               100.0 * fraction, totals.readings_changed)
-                << std::flush;
-      if (last) std::cerr << '\n';
-    } else {
-      std::cerr << fmt::format("{}: {:.1f}% ({} of {} readings), {} readings changed\n", site,
-                               100.0 * fraction, totals.readings_walked, totals.readings_in_period,
-                               totals.readings_changed);
-    }
-  }
-
- private:
-  bool quiet_;
-  bool terminal_;
-  std::chrono::steady_clock::time_point last_{};
 };
 
 void print_summary(const ReprocessTotals& totals, units::System system) {
@@ -138,9 +89,8 @@ int run_reprocess(const ReprocessOptions& options) {
     std::cerr << reprocessor.error().message << '\n';
     return kInvalidInput;
   }
-  std::signal(SIGINT, on_interrupt);
-  std::signal(SIGTERM, on_interrupt);
-  Progress progress(options.quiet);
+  catch_interrupts();
+  ProgressDisplay progress(options.quiet);
   auto& work = **reprocessor;
   while (!work.done()) {
     if (auto stepped = work.step(*store, kStepReadings); !stepped) {
@@ -148,11 +98,14 @@ int run_reprocess(const ReprocessOptions& options) {
                 << " (what was committed stays; run again to finish)\n";
       return kInvalidInput;
     }
-    progress.update(options.site, work.totals(), work.done());
-    if (g_interrupted != 0 && !work.done()) {
+    const auto& totals = work.totals();
+    progress.update(options.site, totals.readings_walked, totals.readings_in_period, "readings",
+                    fmt::format("{} readings changed", totals.readings_changed), work.done());
+    if (work.done()) progress.end_line();
+    if (interrupted_by() != 0 && !work.done()) {
       std::cerr << "\ninterrupted; committed steps stay; run again to finish\n";
       print_summary(work.totals(), config->units);
-      return 128 + static_cast<int>(g_interrupted);
+      return 128 + interrupted_by();
     }
   }
   print_summary(work.totals(), config->units);

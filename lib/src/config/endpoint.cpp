@@ -5,6 +5,8 @@
 
 #include <charconv>
 
+#include "config/value_readers.hpp"
+
 namespace stagewell::config_detail {
 
 // "127.0.0.1:7207", "[::1]:7207", "0.0.0.0:7207". Names are not resolved: a listener binds to an
@@ -36,6 +38,18 @@ std::optional<Endpoint> parse_endpoint(std::string_view text) {
   out.loopback = (host_order >> 24) == 127;  // 127.0.0.0/8 (RFC 1122, 3.2.1.3)
   out.every_address = host_order == 0;
   return out;
+}
+
+std::optional<Endpoint> read_endpoint(const At& at, Context& cx) {
+  const auto text = scalar(at, cx, "ADDRESS:PORT");
+  if (!text) return std::nullopt;
+  auto endpoint = parse_endpoint(*text);
+  if (!endpoint) {
+    cx.error(at,
+             "must be ADDRESS:PORT: an IPv4 address (127.0.0.1), or an IPv6 address in "
+             "brackets ([::1]), and a port from 1 to 65535");
+  }
+  return endpoint;
 }
 
 }  // namespace stagewell::config_detail

@@ -20,4 +20,9 @@ struct Endpoint {
 // tomorrow would move it.
 std::optional<Endpoint> parse_endpoint(std::string_view text);
 
+struct At;
+class Context;
+// Reads a `listen:` value; reports at `at` and returns nullopt when it is not an endpoint.
+std::optional<Endpoint> read_endpoint(const At& at, Context& cx);
+
 }  // namespace stagewell::config_detail

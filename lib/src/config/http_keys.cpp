@@ -8,15 +8,8 @@ namespace stagewell::config_detail {
 namespace {
 
 void read_listen(const At& at, Context& cx, HttpSpec& out) {
-  const auto text = scalar(at, cx, "ADDRESS:PORT");
-  if (!text) return;
-  const auto endpoint = parse_endpoint(*text);
-  if (!endpoint) {
-    cx.error(at,
-             "must be ADDRESS:PORT: an IPv4 address (127.0.0.1), or an IPv6 address in "
-             "brackets ([::1]), and a port from 1 to 65535");
-    return;
-  }
+  const auto endpoint = read_endpoint(at, cx);
+  if (!endpoint) return;
   out.address = endpoint->address;
   out.port = endpoint->port;
   out.loopback = endpoint->loopback;

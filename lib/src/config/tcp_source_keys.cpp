@@ -28,15 +28,8 @@ constexpr std::string_view kSecretRule =
     "a secret must be 16 to 1024 characters of printable ASCII, without spaces";
 
 void read_listen(const At& at, Context& cx, SourceSpec& out) {
-  const auto text = scalar(at, cx, "ADDRESS:PORT");
-  if (!text) return;
-  const auto endpoint = parse_endpoint(*text);
-  if (!endpoint) {
-    cx.error(at,
-             "must be ADDRESS:PORT: an IPv4 address (127.0.0.1), or an IPv6 address in "
-             "brackets ([::1]), and a port from 1 to 65535");
-    return;
-  }
+  const auto endpoint = read_endpoint(at, cx);
+  if (!endpoint) return;
   out.tcp.address = endpoint->address;
   out.tcp.port = endpoint->port;
   out.tcp.loopback = endpoint->loopback;
