@@ -217,6 +217,17 @@ void TcpListener::fed(bool awaiting_commit) {
   if (awaiting_commit) {
     uncommitted_ = true;
     arm_tick();
+    // When lines last arrived, as this listener's row of ingest_progress (no offset: a socket
+    // cannot be re-read), so that the metrics show its lag like a file's. At most once a second,
+    // in the batch with the lines.
+    const std::int64_t now = ingestor_->now_ms();
+    if (now - progress_written_ms_ >= 1000) {
+      if (auto written = ingestor_->progress(label_, {"tcp", 0, now}); !written) {
+        store_failed(written.error());
+        return;
+      }
+      progress_written_ms_ = now;
+    }
   }
   if (ingestor_->commit_due()) request_commit(false);
 }

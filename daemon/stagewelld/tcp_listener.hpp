@@ -100,7 +100,8 @@ class TcpListener : public std::enable_shared_from_this<TcpListener> {
   bool spoiled_ = false;
   bool stopping_ = false;
   bool ticking_ = false;
-  bool uncommitted_ = false;  // some connection has lines waiting for a commit
+  bool uncommitted_ = false;              // some connection has lines waiting for a commit
+  std::int64_t progress_written_ms_ = 0;  // when fed() last wrote this listener's progress row
   std::int64_t busy_refusals_ = 0;
 };
 

@@ -9,6 +9,7 @@ table is documented to agree within 0.01 %.
 """
 import os
 import random
+import sqlite3
 import sys
 import tempfile
 import time
@@ -36,6 +37,7 @@ def main():
 
 
 def run(checks, port, db, daemon):
+    started_ms = int(time.time() * 1000)
     # --- acks count every line: header, comment, blank, readings, a rejected line -------------
     rows = t.readings(5, start_minute=0)
     lines = ["site,time,stage", "# from gateway 7", ""] + t.csv_lines(rows[:3]) + \
@@ -67,6 +69,14 @@ def run(checks, port, db, daemon):
     checks.check("the rejected line is kept in rejects with its connection and line",
                  any(r[0].startswith("tcp 127.0.0.1:") and r[1] == f"line {bad_line}" for r in reasons),
                  f"{t.rejects(db)}")
+
+    # The listener's lag for the metrics: its ingest_progress row, written with the lines.
+    with sqlite3.connect(f"file:{db}?mode=ro", uri=True, timeout=10) as con:
+        rows = list(con.execute("SELECT file_identity, byte_offset, updated_ms FROM ingest_progress "
+                                "WHERE source = ?", (f"tcp 127.0.0.1:{port}",)))
+    checks.check("the listener's progress row: no offset, written when the lines arrived",
+                 len(rows) == 1 and rows[0][:2] == ("tcp", 0) and
+                 started_ms - 1000 <= rows[0][2] <= int(time.time() * 1000) + 1000, f"{rows}")
 
     # --- no header: the source's columns in the default order; CRLF line endings ---------------
     rows = t.readings(4, start_minute=100)

@@ -152,10 +152,12 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
   out.family("stagewell_commits", "counter", "Batches committed since the service started.");
   out.sample("", static_cast<double>(counts.commits));
 
-  // Lag of each source: seconds since its reading position was last committed (ingest_progress);
-  // a source that delivers nothing new grows old. The 100 most recent sources.
+  // Lag of each source: seconds since its reading position was last committed (ingest_progress;
+  // a tcp listener writes its row, without an offset, when lines arrive); a source that delivers
+  // nothing new grows old. The 100 most recent sources.
   out.family("stagewell_source_progress_age_seconds", "gauge",
-             "Seconds since each file source last had input committed.", "seconds");
+             "Seconds since each source (file or tcp listener) last had input committed.",
+             "seconds");
   {
     auto select = state.store.connection().cached(
         "SELECT source, updated_ms FROM ingest_progress ORDER BY updated_ms DESC LIMIT 100");
