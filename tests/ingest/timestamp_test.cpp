@@ -146,6 +146,10 @@ TEST_CASE("formatting milliseconds as RFC 3339 UTC (python datetime + timedelta)
   CHECK(format_timestamp_utc(1772345700250) == "2026-03-01T06:15:00.250Z");
   CHECK(format_timestamp_utc(-500) == "1969-12-31T23:59:59.500Z");
   CHECK(format_timestamp_utc(-1) == "1969-12-31T23:59:59.999Z");
+  // RFC 3339 (section 5.6, date-fullyear = 4DIGIT): years before 1000 keep four digits, so a
+  // stray year-26 reading prints as text that reads back.
+  CHECK(format_timestamp_utc(-61318152013000) == "0026-11-27T03:59:47Z");
+  CHECK(parse_timestamp("0026-11-27T03:59:47Z", nullptr).value() == -61318152013000);
   CHECK(format_timestamp_utc(1709208000000) == "2024-02-29T12:00:00Z");
   CHECK(format_timestamp_utc(253402300799999) == "9999-12-31T23:59:59.999Z");
   CHECK(format_timestamp_utc(1772345700000, Millis::always) == "2026-03-01T06:15:00.000Z");

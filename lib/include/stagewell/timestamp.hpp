@@ -2,10 +2,13 @@
 //
 // Accepted text (RFC 3339, plus the common ISO 8601 relaxations):
 //
+// clang-format off
 //   2026-03-01T06:15:00Z             UTC
-//   2026-03-01T06:15:00.250-07:00    with an offset; 't' or ' ' may replace 'T', 'z' may replace
-//   'Z' 2026-03-01 06:15:00+0530         offset also as +HHMM or +HH 2026-03-01 06:15 seconds may
-//   be left out 2026-03-01 06:15:00              no offset: local time in the source's time zone
+//   2026-03-01T06:15:00.250-07:00    with an offset; 't' or ' ' may replace 'T', 'z' may replace 'Z'
+//   2026-03-01 06:15:00+0530         offset also as +HHMM or +HH
+//   2026-03-01 06:15                 seconds may be left out
+//   2026-03-01 06:15:00              no offset: local time in the source's time zone
+// clang-format on
 //
 // A fraction of a second (after '.' or ',') may have any number of digits; digits past
 // milliseconds are dropped (truncated toward the earlier instant). Leap seconds (:60) are rejected.

@@ -170,8 +170,9 @@ std::string format_timestamp_utc(std::int64_t time_ms, Millis millis) {
   using Ms = std::chrono::milliseconds;
   const std::chrono::time_point<std::chrono::system_clock, Ms> instant{Ms(time_ms)};
   const bool whole_second = time_ms % 1000 == 0;
-  const char* format = (millis == Millis::when_nonzero && whole_second) ? "%Y-%m-%dT%H:%M:%SZ"
-                                                                        : "%Y-%m-%dT%H:%M:%E3SZ";
+  // %E4Y: RFC 3339 wants four digits, so year 26 is "0026" (and reads back).
+  const char* format = (millis == Millis::when_nonzero && whole_second) ? "%E4Y-%m-%dT%H:%M:%SZ"
+                                                                        : "%E4Y-%m-%dT%H:%M:%E3SZ";
   return cctz::format(format, instant, cctz::utc_time_zone());
 }
 
