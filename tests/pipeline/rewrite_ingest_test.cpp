@@ -81,5 +81,31 @@ TEST_CASE("daily figures stay exact when stored readings are rewritten between b
   CHECK(got->front() == want.front());  // exactly: the same readings, the same arithmetic
 }
 
+TEST_CASE("readings another process stored meanwhile are the next reading's neighbours") {
+  // The service stores minutes 0-99; `stagewell ingest` (another connection) back-loads 100-199;
+  // then the service gets minute 200. Its neighbour is minute 199: one minute, no gap (the site's
+  // max_gap is the default, 1 h). Had the service kept its own idea of the latest reading (minute
+  // 99), minute 200 would be flagged `gap` (101 minutes) wrongly.
+  TempDir dir;
+  const Config config = config_in(dir);
+  const auto now = [] { return kT0 + 86'400'000; };
+  auto service = Ingestor::open(config, IngestorOptions{}, now);
+  REQUIRE(service.has_value());
+  feed(**service, 0, 100);
+  {
+    auto other = Ingestor::open(config, IngestorOptions{}, now);
+    REQUIRE(other.has_value());
+    feed(**other, 100, 200);
+  }
+  feed(**service, 200, 201);
+  auto raw = test::raw_connection(dir.db());
+  auto select = raw->prepare("SELECT flags FROM readings WHERE time_ms = ?1");
+  REQUIRE(select.has_value());
+  select->bind(1, kT0 + 200 * kMinute);
+  REQUIRE(select->step().value());
+  CHECK(select->column_int64(0) == 0);  // clean: no gap
+  CHECK((*service)->counts().flagged_by_flag.count("gap") == 0);
+}
+
 }  // namespace
 }  // namespace stagewell

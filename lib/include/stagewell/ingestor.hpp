@@ -127,6 +127,8 @@ class Ingestor {
   Result<WriteBatch*> batch();
   // Rebuilds each site's check state and alarm evaluator from the store.
   Result<void> reload_site_state();
+  // Reloads the site state when another connection has committed since it was taken.
+  Result<void> notice_other_writers();
   // A record whose (site, time) is stored with `stored_stage`: a no-op when the stage is the
   // same, a 'conflict' reject when not (stored values are never replaced).
   Result<void> repeat(const Record& record, double stored_stage, const SourcePosition& at);

@@ -70,6 +70,9 @@ struct Ingestor::State {
   std::vector<CommitObserver> observers;
   std::optional<daily::DailyKeeper> daily;  // empty when options.keep_daily is off
   std::int64_t opened_ms = 0;               // when the Ingestor was opened (alarms: stale)
+  // PRAGMA data_version when the site state was last taken from the store: it changes when
+  // another connection (`stagewell ingest` or `reprocess` beside the service) commits.
+  std::optional<std::int64_t> data_version;
   // Alarm events written in the open batch, logged once it commits (never when it rolls back).
   std::vector<std::pair<const Site*, alarms::AlarmEvent>> alarm_log;
   std::vector<alarms::AlarmEvent> alarm_scratch;  // reused for every reading
@@ -136,6 +139,11 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
   auto state = std::make_unique<State>(config, options, std::move(clock), std::move(*store));
   const auto now = state->clock();
   state->opened_ms = now;
+  // Before the site state is read from the store, so that a commit by another writer while it is
+  // being read shows as a change.
+  auto version = state->store.connection().query_int64("PRAGMA data_version");
+  if (!version) return std::unexpected(version.error());
+  state->data_version = *version;
   if (options.keep_daily) {
     auto keeper = daily::DailyKeeper::create(state->config);
     if (!keeper) return std::unexpected(keeper.error());
@@ -195,6 +203,9 @@ Result<WriteBatch*> Ingestor::batch() {
 
 Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
   last_conflict_.reset();
+  if (!state_->batch) {  // between batches: has another process written readings meanwhile?
+    if (auto noticed = notice_other_writers(); !noticed) return noticed;
+  }
   const auto found = state_->sites.find(record.site);
   if (found == state_->sites.end()) {
     // The record parser checks sites; this guards callers that skip it.
@@ -388,6 +399,19 @@ Result<void> Ingestor::stored_readings_rewritten() {
   }
   if (state_->daily) state_->daily->forget();
   return reload_site_state();
+}
+
+Result<void> Ingestor::notice_other_writers() {
+  auto version = state_->store.connection().query_int64("PRAGMA data_version");
+  if (!version) return std::unexpected(version.error());
+  if (state_->data_version == *version) return {};
+  // Another writer's readings may sit next to the ones coming: the checks must see them as
+  // neighbours (no false gap or spike) and the alarms must replay them.
+  if (state_->data_version) {
+    if (auto reloaded = reload_site_state(); !reloaded) return reloaded;
+  }
+  state_->data_version = *version;
+  return {};
 }
 
 Result<void> Ingestor::reload_site_state() {
