@@ -3,6 +3,8 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <array>
+#include <bit>
 #include <cmath>
 #include <unordered_map>
 #include <vector>
@@ -67,6 +69,27 @@ struct Ingestor::State {
   std::int64_t batch_started_ms = 0;
   std::int64_t batch_readings = 0;
   IngestCounts pending;  // counts of the open batch, added to the totals on commit
+  // Readings of the open batch with each flag, by bit position: counted without building a name
+  // per flagged reading, and named once, at commit (into pending.flagged_by_flag).
+  std::array<std::int64_t, 32> pending_flags{};
+
+  void count_flags(Flags flags) {
+    for (std::uint32_t bits = flags.bits(); bits != 0; bits &= bits - 1) {
+      ++pending_flags[static_cast<std::size_t>(std::countr_zero(bits))];
+    }
+  }
+  void name_flag_counts() {
+    for (std::size_t bit = 0; bit < pending_flags.size(); ++bit) {
+      if (pending_flags[bit] == 0) continue;
+      pending.flagged_by_flag[std::string(name(static_cast<Flag>(1u << bit)))] +=
+          pending_flags[bit];
+    }
+    pending_flags.fill(0);
+  }
+  void clear_pending() {
+    pending = IngestCounts{};
+    pending_flags.fill(0);
+  }
   std::vector<CommitObserver> observers;
   std::optional<daily::DailyKeeper> daily;  // empty when options.keep_daily is off
   std::int64_t opened_ms = 0;               // when the Ingestor was opened (alarms: stale)
@@ -269,7 +292,7 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
         site.newest_ms = std::max(site.newest_ms.value_or(out.time_ms), out.time_ms);
       }
       if (state_->daily) state_->daily->stored(site.key, {out.time_ms, out.discharge, out.flags});
-      for (auto flag_name : out.flags.names()) ++pending.flagged_by_flag[std::string(flag_name)];
+      state_->count_flags(out.flags);
       if (site.alarms) {
         auto& events = state_->alarm_scratch;
         events.clear();
@@ -293,8 +316,7 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
     auto added = (*batch)->add_flags(site.key, earlier.time_ms, earlier.flags);
     if (!added) return std::unexpected(added.error());
     if (*added) {
-      for (auto flag_name : earlier.flags.names())
-        ++pending.flagged_by_flag[std::string(flag_name)];
+      state_->count_flags(earlier.flags);
       if (state_->daily) state_->daily->flagged(site.key, earlier.time_ms, earlier.flags);
     }
   }
@@ -357,7 +379,7 @@ Result<void> Ingestor::commit() {
   if (state_->daily) {
     if (auto updated = state_->daily->update(state_->batch->connection()); !updated) {
       state_->batch.reset();  // rolls back
-      state_->pending = IngestCounts{};
+      state_->clear_pending();
       state_->alarm_log.clear();
       state_->notify(false);
       return updated;
@@ -367,15 +389,16 @@ Result<void> Ingestor::commit() {
   state_->batch.reset();
   if (!committed) {
     if (state_->daily) state_->daily->forget();
-    state_->pending = IngestCounts{};
+    state_->clear_pending();
     state_->alarm_log.clear();
     state_->notify(false);
     return committed;
   }
   state_->log_alarms();
   ++state_->pending.commits;
+  state_->name_flag_counts();
   counts_.add(state_->pending);
-  state_->pending = IngestCounts{};
+  state_->clear_pending();
   state_->notify(true);
   return {};
 }
@@ -387,7 +410,7 @@ void Ingestor::add_commit_observer(CommitObserver observer) {
 Result<void> Ingestor::reset() {
   state_->batch.reset();  // rolls back
   if (state_->daily) state_->daily->forget();
-  state_->pending = IngestCounts{};
+  state_->clear_pending();
   state_->alarm_log.clear();
   state_->notify(false);
   return reload_site_state();
