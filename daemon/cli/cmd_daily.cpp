@@ -131,11 +131,8 @@ void print_table(const Report& report, const std::vector<daily::DayFigures>& day
 int run_daily(const DailyOptions& options) {
   auto report = open_report(options.report);
   if (!report) return report.error();
-  auto days = report->reader.days(report->from, report->to);
-  if (!days) {
-    std::cerr << days.error().message << '\n';
-    return kInvalidInput;
-  }
+  auto days = report_days(*report);
+  if (!days) return kInvalidInput;
   if (options.json) {
     print_json(*report, *days);
   } else if (options.csv) {

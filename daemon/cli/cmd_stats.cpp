@@ -150,11 +150,8 @@ void print_text(const Report& r, const Computed& c) {
 int run_stats(const StatsOptions& options) {
   auto report = open_report(options.report);
   if (!report) return report.error();
-  auto days = report->reader.days(report->from, report->to);
-  if (!days) {
-    std::cerr << days.error().message << '\n';
-    return kInvalidInput;
-  }
+  auto days = report_days(*report);
+  if (!days) return kInvalidInput;
   const auto& calendar = report->reader.calendar();
   const int start = report->config.daily.water_year_start_month;
   Computed c;

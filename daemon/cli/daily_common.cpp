@@ -105,6 +105,15 @@ std::expected<Report, int> open_report(const ReportOptions& options) {
                 conversion};
 }
 
+std::optional<std::vector<daily::DayFigures>> report_days(Report& report) {
+  auto days = report.reader.days(report.from, report.to);
+  if (!days) {
+    std::cerr << days.error().message << '\n';
+    return std::nullopt;
+  }
+  return std::move(*days);
+}
+
 std::string ascii_unit(std::string_view option_name) {
   std::string out;
   for (const char c : option_name) {

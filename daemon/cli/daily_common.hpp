@@ -7,6 +7,7 @@
 #include <expected>
 #include <optional>
 #include <string>
+#include <vector>
 
 #include "common.hpp"
 #include "stagewell/daily_reader.hpp"
@@ -39,6 +40,10 @@ struct Report {
 // Loads the configuration, opens the figures and settles the period and units. On failure it
 // has told the user why and returns the exit status.
 std::expected<Report, int> open_report(const ReportOptions& options);
+
+// The daily figures of the report's period. On failure it has told the user why and returns
+// nullopt (exit status kInvalidInput).
+std::optional<std::vector<daily::DayFigures>> report_days(Report& report);
 
 // "m3/s" -> "m3_per_s", "acre-ft" -> "acre_ft": a unit as part of a CSV column name.
 std::string ascii_unit(std::string_view option_name);

@@ -123,7 +123,7 @@ bool Service::open(const Config& config) {
           Source{TailedFile(spec, *ingestor_), "tail " + spec.path.string(), {}}));
     }
   }
-  // ---- tcp sources (issue 5): listeners on this io_context; see tcp_listener.hpp ----
+  // ---- tcp sources: listeners on this io_context; see tcp_listener.hpp ----
   tcp_.reset();
   auto tcp = TcpSources::open(
       io_, *ingestor_, {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
@@ -133,7 +133,7 @@ bool Service::open(const Config& config) {
   }
   tcp_ = std::move(*tcp);
   // ---- end of tcp sources ----
-  if (!open_http()) return false;  // http (issue 7)
+  if (!open_http()) return false;  // http
   const auto& loaded = ingestor_->config();
   std::string site_ids;
   for (const auto& site : loaded.sites) site_ids += (site_ids.empty() ? "" : ", ") + site.id;
@@ -143,7 +143,7 @@ bool Service::open(const Config& config) {
       STAGEWELL_VERSION, loaded.sites.size(), site_ids, sources_.size(), loaded.database.string(),
       ingestor_->store().schema_version(), units::name(loaded.units));
   for (const auto& source : sources_) spdlog::info("source: {}", source->label);
-  if (sources_.empty() && tcp_->size() == 0) {  // tcp_: issue 5
+  if (sources_.empty() && tcp_->size() == 0) {  // tcp sources too
     spdlog::warn("no sources configured: nothing will be read");
   }
   return true;
@@ -222,7 +222,7 @@ void Service::recover(const Error& error) {
   });
 }
 
-// tcp sources (issue 5): commit as soon as the batch is due rather than at the next poll (up to
+// tcp sources: commit as soon as the batch is due rather than at the next poll (up to
 // kIdlePoll later), so that clients are acknowledged within the batch age.
 void Service::commit_if_due() {
   if (stopping_ || !ingestor_ || !ingestor_->commit_due()) return;
@@ -243,7 +243,7 @@ void Service::schedule_alarm_tick() {
   });
 }
 
-// ---- http (issue 7): the status page, API and metrics (http_server.hpp) ----
+// ---- http: the status page, API and metrics (http_server.hpp) ----
 bool Service::open_http() {
   stop_http();
   const Config& config = ingestor_->config();
@@ -301,8 +301,8 @@ void Service::shut_down() {
   stopping_ = true;
   poll_timer_.cancel();
   alarm_timer_.cancel();
-  if (tcp_) tcp_->stop();  // tcp sources (issue 5): read no more; close once acknowledged
-  stop_http();             // http (issue 7)
+  if (tcp_) tcp_->stop();  // tcp sources: read no more; close once acknowledged
+  stop_http();             // http
   if (ingestor_) {
     if (auto committed = ingestor_->commit(); !committed) {
       spdlog::error("final commit failed: {}; that input will be read again at the next start",
@@ -335,8 +335,8 @@ void Service::reload() {
   auto old_sources = std::move(sources_);
   sources_.clear();
   old_sources.clear();
-  tcp_.reset();  // tcp sources (issue 5): closes their connections before the Ingestor goes
-  stop_http();   // http (issue 7): frees the port and the read-only connection
+  tcp_.reset();  // tcp sources: closes their connections before the Ingestor goes
+  stop_http();   // http: frees the port and the read-only connection
   carried_.add(totals);
   old_ingestor.reset();  // closes the database before it is opened again
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);

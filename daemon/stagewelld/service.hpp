@@ -15,12 +15,12 @@
 #include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
 #include <vector>
 
-#include "http_server.hpp"  // http (issue 7)
+#include "http_server.hpp"  // http
 #include "logging.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
 #include "stagewell/reprocess.hpp"
-#include "tcp_listener.hpp"  // tcp sources (issue 5)
+#include "tcp_listener.hpp"  // tcp sources
 
 namespace stagewell::service {
 
@@ -44,15 +44,15 @@ class Service {
   void on_signal(int signal_number);
   void reload();
   void shut_down();
-  void commit_if_due();        // tcp sources (issue 5): acknowledge within the batch age
+  void commit_if_due();        // tcp sources: acknowledge within the batch age
   void schedule_alarm_tick();  // alarms judged by the clock (a sensor gone quiet)
   // History (reprocess.hpp): after a configuration is loaded, the readings its history or
   // corrections compute differently are recomputed in steps posted between other work.
   void plan_reprocessing();
   void post_reprocess_step();
   void reprocess_step();
-  bool open_http();  // http (issue 7)
-  void stop_http();  // http (issue 7)
+  bool open_http();  // http
+  void stop_http();  // http
 
   boost::asio::io_context& io_;
   std::string config_path_;
@@ -62,11 +62,11 @@ class Service {
   boost::asio::steady_timer alarm_timer_;
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
-  std::unique_ptr<TcpSources> tcp_;  // tcp sources (issue 5); declared after ingestor_: goes first
+  std::unique_ptr<TcpSources> tcp_;  // tcp sources; declared after ingestor_: goes first
   std::vector<std::unique_ptr<Reprocessor>> reprocess_;  // history: sites left to recompute
   bool reprocess_posted_ = false;
 
-  // http (issue 7): the status page, API and metrics; the counts of Ingestors before a reload and
+  // http: the status page, API and metrics; the counts of Ingestors before a reload and
   // the start time, for the metrics.
   std::shared_ptr<HttpServer> http_;
   IngestCounts carried_;

@@ -193,7 +193,7 @@ struct Config {
   std::vector<SourceSpec> sources;
   LogSpec log;
   DailySpec daily;
-  std::optional<HttpSpec> http;  // http (issue 7): empty when `http:` is not written
+  std::optional<HttpSpec> http;  // http: empty when `http:` is not written
 
   const SiteConfig* find_site(std::string_view id) const;  // nullptr when unknown
 };

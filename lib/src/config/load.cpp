@@ -23,8 +23,9 @@ void read_flag_treatments(const At& at, Context& cx, DailySpec& out) {
                       const auto choice = one_of({"include", "exclude", "bridge"})(value, c);
                       if (!choice) return;
                       if (flag == Flag::out_of_range && *choice == "include") {
-                        c.error(value, "out_of_range readings have no discharge to include: "
-                                       "write exclude or bridge");
+                        c.error(value,
+                                "out_of_range readings have no discharge to include: "
+                                "write exclude or bridge");
                         return;
                       }
                       spec.excluded.clear(flag);
@@ -59,7 +60,7 @@ const std::vector<Key<Config>>& top_keys() {
       {"sites", required(), read_sites},
       {"sources", defaults("[]"), read_sources},
       {"daily", defaults("{}"), read_daily},
-      {"http", optional(), read_http},  // http (issue 7): no server unless written
+      {"http", optional(), read_http},  // http: no server unless written
   };
   return keys;
 }
