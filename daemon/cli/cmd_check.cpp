@@ -5,6 +5,7 @@
 #include <memory>
 
 #include "commands.hpp"
+#include "output_format.hpp"
 
 namespace stagewell::cli {
 namespace {

@@ -8,6 +8,7 @@
 #include <nlohmann/json.hpp>
 
 #include "commands.hpp"
+#include "output_format.hpp"
 
 namespace stagewell::cli {
 namespace {

@@ -96,7 +96,8 @@ int run_ingest(const IngestOptions& options) {
     const auto key = "ingest:" + fs::absolute(path, error).lexically_normal().string();
     if (options.again) {
       // Forget the stored offset: every line is read again (repeats of stored readings are no-ops).
-      if (auto forgot = (*ingestor)->progress(key, {"", 0, (*ingestor)->now_ms()}); !forgot) {
+      if (auto forgot = (*ingestor)->record_progress(key, {"", 0, (*ingestor)->now_ms()});
+          !forgot) {
         std::cerr << forgot.error().message << '\n';
         return kInvalidInput;
       }

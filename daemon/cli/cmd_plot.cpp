@@ -7,7 +7,7 @@
 #include <memory>
 
 #include "commands.hpp"
-#include "daily_common.hpp"
+#include "report.hpp"
 #include "stagewell/plot.hpp"
 
 namespace stagewell::cli {

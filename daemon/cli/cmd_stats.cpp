@@ -8,7 +8,7 @@
 #include <nlohmann/json.hpp>
 
 #include "commands.hpp"
-#include "daily_common.hpp"
+#include "report.hpp"
 #include "stagewell/timestamp.hpp"
 
 namespace stagewell::cli {

@@ -7,6 +7,7 @@
 #include <optional>
 
 #include "commands.hpp"
+#include "output_format.hpp"
 
 namespace stagewell::cli {
 namespace {

@@ -4,7 +4,7 @@
 
 #include <CLI/CLI.hpp>
 
-#include "common.hpp"
+#include "command.hpp"
 
 namespace stagewell::cli {
 
@@ -17,6 +17,6 @@ void add_daily_command(CLI::App& program, Action& chosen);
 void add_stats_command(CLI::App& program, Action& chosen);
 void add_plot_command(CLI::App& program, Action& chosen);
 void add_send_command(CLI::App& program, Action& chosen);
-void add_reprocess_command(CLI::App& program, Action& chosen);
+void add_recompute_command(CLI::App& program, Action& chosen);
 
 }  // namespace stagewell::cli

@@ -3,8 +3,8 @@
 #include <exception>
 #include <iostream>
 
+#include "command.hpp"
 #include "commands.hpp"
-#include "common.hpp"
 
 int main(int argc, char** argv) {
   using namespace stagewell::cli;
@@ -25,7 +25,7 @@ int main(int argc, char** argv) {
   add_stats_command(program, chosen);
   add_plot_command(program, chosen);
   add_send_command(program, chosen);
-  add_reprocess_command(program, chosen);
+  add_recompute_command(program, chosen);
 
   try {
     program.parse(argc, argv);

@@ -1,4 +1,4 @@
-// Long commands (`ingest`, `reprocess`): progress on stderr, and stopping cleanly on a signal.
+// Long commands (`ingest`, `recompute`): progress on stderr, and stopping cleanly on a signal.
 #pragma once
 
 #include <chrono>

@@ -11,7 +11,7 @@
 #include <iostream>
 #include <mutex>
 
-#include "common.hpp"
+#include "command.hpp"
 
 namespace stagewell::cli::send {
 namespace {

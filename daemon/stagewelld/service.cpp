@@ -96,7 +96,7 @@ bool Service::start() {
   wait_for_signal();
   schedule_poll(true);
   schedule_alarm_tick();
-  plan_reprocessing();
+  plan_recomputation();
   return true;
 }
 
@@ -330,7 +330,7 @@ void Service::reload() {
   }
   const auto totals = ingestor_->counts();
   const Config previous = ingestor_->config();
-  reprocess_.clear();  // history: re-planned for the new configuration (the work left is found)
+  recomputations_.clear();  // planned again for the new configuration (the work left is found)
   auto old_ingestor = std::move(ingestor_);
   auto old_sources = std::move(sources_);
   sources_.clear();
@@ -352,21 +352,21 @@ void Service::reload() {
     }
   }
   spdlog::info("reloaded; totals before the reload: {}", summary(totals));
-  plan_reprocessing();
+  plan_recomputation();
 }
 
-// ---- History: recomputing readings after a change of history or corrections ----
+// ---- Recomputing stored readings after a change of history or corrections ----
 
 namespace {
 
 // Readings per step: one transaction of this many takes some tens of milliseconds, so sources,
 // sockets and signals wait no longer than that between steps.
-constexpr std::int64_t kReprocessStepReadings = 2000;
+constexpr std::int64_t kRecomputeStepReadings = 2000;
 
 }  // namespace
 
-void Service::plan_reprocessing() {
-  reprocess_.clear();
+void Service::plan_recomputation() {
+  recomputations_.clear();
   if (!ingestor_) return;
   if (auto committed = ingestor_->commit(); !committed) {
     recover(committed.error());
@@ -374,7 +374,7 @@ void Service::plan_reprocessing() {
   }
   for (const auto& site : ingestor_->config().sites) {
     auto planned =
-        Reprocessor::plan(ingestor_->store(), ingestor_->config(), site.id, ingestor_->now_ms());
+        Recomputation::plan(ingestor_->store(), ingestor_->config(), site.id, ingestor_->now_ms());
     if (!planned) {
       spdlog::error("{}: cannot plan the recomputation of its history: {}", site.id,
                     planned.error().message);
@@ -385,30 +385,30 @@ void Service::plan_reprocessing() {
     spdlog::info("{}: recomputing {} readings from {} to {} (history or corrections changed)",
                  site.id, totals.readings_in_period, format_timestamp_utc(*totals.period_from_ms),
                  format_timestamp_utc(*totals.period_to_ms));
-    reprocess_.push_back(std::move(*planned));
+    recomputations_.push_back(std::move(*planned));
   }
-  post_reprocess_step();
+  post_recompute_step();
 }
 
-void Service::post_reprocess_step() {
-  if (reprocess_.empty() || reprocess_posted_ || stopping_) return;
-  reprocess_posted_ = true;
+void Service::post_recompute_step() {
+  if (recomputations_.empty() || recompute_posted_ || stopping_) return;
+  recompute_posted_ = true;
   boost::asio::post(io_, [this] {
-    reprocess_posted_ = false;
-    reprocess_step();
+    recompute_posted_ = false;
+    recompute_step();
   });
 }
 
-void Service::reprocess_step() {
-  if (stopping_ || !ingestor_ || reprocess_.empty()) return;
+void Service::recompute_step() {
+  if (stopping_ || !ingestor_ || recomputations_.empty()) return;
   // The recomputation writes on the ingest's connection: the open batch goes first.
   if (auto committed = ingestor_->commit(); !committed) {
     recover(committed.error());
-    post_reprocess_step();
+    post_recompute_step();
     return;
   }
-  Reprocessor& work = *reprocess_.front();
-  auto stepped = work.step(ingestor_->store(), kReprocessStepReadings);
+  Recomputation& work = *recomputations_.front();
+  auto stepped = work.step(ingestor_->store(), kRecomputeStepReadings);
   // Whatever the step committed, the ingest's in-memory copies of stored readings are stale.
   if (auto refreshed = ingestor_->stored_readings_rewritten(); !refreshed) {
     recover(refreshed.error());
@@ -418,17 +418,17 @@ void Service::reprocess_step() {
         "{}: recomputation stopped: {}; what was committed stays, the rest is found "
         "again at the next start or SIGHUP",
         work.site_id(), stepped.error().message);
-    reprocess_.erase(reprocess_.begin());
+    recomputations_.erase(recomputations_.begin());
   } else if (work.done()) {
     const auto& totals = work.totals();
     spdlog::info(
         "{}: recomputed {} readings ({} changed, max discharge change {:.6g}, {} days "
-        "refreshed, max daily volume change {:.6g}); see the `changes` view",
+        "refreshed, max daily volume change {:.6g}); see the `recomputations` view",
         work.site_id(), totals.readings_recomputed, totals.readings_changed,
         totals.max_discharge_change, totals.days_refreshed, totals.max_daily_volume_change);
-    reprocess_.erase(reprocess_.begin());
+    recomputations_.erase(recomputations_.begin());
   }
-  post_reprocess_step();
+  post_recompute_step();
 }
 
 }  // namespace stagewell::service

@@ -19,7 +19,7 @@
 #include "logging.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
-#include "stagewell/reprocess.hpp"
+#include "stagewell/recomputation.hpp"
 #include "tcp_listener.hpp"  // tcp sources
 
 namespace stagewell::service {
@@ -46,11 +46,11 @@ class Service {
   void shut_down();
   void commit_if_due();        // tcp sources: acknowledge within the batch age
   void schedule_alarm_tick();  // alarms judged by the clock (a sensor gone quiet)
-  // History (reprocess.hpp): after a configuration is loaded, the readings its history or
+  // Recomputation (recomputation.hpp): after a configuration is loaded, the readings its history or
   // corrections compute differently are recomputed in steps posted between other work.
-  void plan_reprocessing();
-  void post_reprocess_step();
-  void reprocess_step();
+  void plan_recomputation();
+  void post_recompute_step();
+  void recompute_step();
   bool open_http();  // http
   void stop_http();  // http
 
@@ -63,8 +63,8 @@ class Service {
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
   std::unique_ptr<TcpSources> tcp_;  // tcp sources; declared after ingestor_: goes first
-  std::vector<std::unique_ptr<Reprocessor>> reprocess_;  // history: sites left to recompute
-  bool reprocess_posted_ = false;
+  std::vector<std::unique_ptr<Recomputation>> recomputations_;  // sites left to recompute
+  bool recompute_posted_ = false;
 
   // http: the status page, API and metrics; the counts of Ingestors before a reload and
   // the start time, for the metrics.

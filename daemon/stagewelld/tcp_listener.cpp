@@ -222,7 +222,7 @@ void TcpListener::fed(bool awaiting_commit) {
     // in the batch with the lines.
     const std::int64_t now = ingestor_->now_ms();
     if (now - progress_written_ms_ >= 1000) {
-      if (auto written = ingestor_->progress(label_, {"tcp", 0, now}); !written) {
+      if (auto written = ingestor_->record_progress(label_, {"tcp", 0, now}); !written) {
         store_failed(written.error());
         return;
       }

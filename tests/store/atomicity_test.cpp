@@ -84,7 +84,7 @@ TEST_CASE("a failed commit stores neither the readings nor the progress, and los
   CHECK_FALSE(try_batch_b(store, site));
   CHECK(commits == 1);  // an I/O error is not retried: only a busy database is
   check_only_a(observe(dir.db()));
-  auto progress = store.progress(kSource);
+  auto progress = store.committed_progress(kSource);
   REQUIRE(progress.has_value());
   REQUIRE(progress->has_value());
   CHECK((*progress)->byte_offset == 100);

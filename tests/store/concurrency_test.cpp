@@ -66,7 +66,7 @@ TEST_CASE("a commit that finds the database busy is retried and succeeds") {
   CHECK(commits == 3);
   store.set_step_hook_for_testing(nullptr);
   CHECK(store.count_readings() == 1);
-  CHECK(store.progress("/data/gauge.csv")->value().byte_offset == 40);
+  CHECK(store.committed_progress("/data/gauge.csv")->value().byte_offset == 40);
 }
 
 TEST_CASE("a commit still busy after the last attempt fails whole") {
@@ -89,7 +89,7 @@ TEST_CASE("a commit still busy after the last attempt fails whole") {
   CHECK(commits == kImpatient.busy_attempts);
   store.set_step_hook_for_testing(nullptr);
   CHECK(store.count_readings() == 0);
-  CHECK_FALSE(store.progress("/data/gauge.csv")->has_value());
+  CHECK_FALSE(store.committed_progress("/data/gauge.csv")->has_value());
 }
 
 TEST_CASE("a writer waits for another connection's write lock and retries") {

@@ -38,6 +38,8 @@ TEST_CASE("the views have exactly the contracted columns") {
         std::vector<std::string>{"at", "site", "period_from", "period_to", "config_before",
                                  "config_after", "readings_changed", "max_discharge_change",
                                  "max_daily_volume_change"});
+  // `changes` is the old name of `recomputations` (schema/005): both answer the same columns.
+  CHECK(column_names(*raw, "recomputations") == column_names(*raw, "changes"));
 }
 
 TEST_CASE("discharge view: RFC 3339 UTC time text and unix_time in seconds") {

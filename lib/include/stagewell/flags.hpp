@@ -41,7 +41,7 @@ class Flags {
   constexpr std::uint32_t bits() const { return bits_; }
   friend constexpr bool operator==(Flags, Flags) = default;
 
-  std::vector<std::string_view> names() const;  // in declaration order
+  std::vector<std::string_view> names() const;     // in declaration order
   std::string joined(char separator = ',') const;  // "" when empty
 
  private:

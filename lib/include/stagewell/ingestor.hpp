@@ -79,7 +79,7 @@ class Ingestor {
   Result<void> reject(std::string_view kind, std::string_view reason, const SourcePosition& at);
 
   // Records how far `source_key` has been read; committed with the readings before it.
-  Result<void> progress(std::string_view source_key, const IngestProgress& progress);
+  Result<void> record_progress(std::string_view source_key, const IngestProgress& progress);
 
   // True when the open batch should be committed now (size or age).
   bool commit_due() const;
@@ -92,7 +92,7 @@ class Ingestor {
   // Drops the open batch and restores the check state from the store (after a failed commit).
   Result<void> reset();
   // Stored readings were rewritten on this Ingestor's store connection by something else (a
-  // recomputation, reprocess.hpp): what it keeps of them in memory — the daily figures' copy of
+  // recomputation, recomputation.hpp): what it keeps of them in memory — the daily figures' copy of
   // the open day, the checks' and alarms' recent readings — is read again. REQUIRES: no batch is
   // open (commit() first).
   Result<void> stored_readings_rewritten();
@@ -109,7 +109,7 @@ class Ingestor {
   Result<void> tick_alarms();
 
   // Progress stored for a source (committed state).
-  Result<std::optional<IngestProgress>> stored_progress(std::string_view source_key);
+  Result<std::optional<IngestProgress>> committed_progress(std::string_view source_key);
 
   // The reason when the last reading() was a conflict (its site and time are stored with another
   // stage, so it went to rejects as "conflict"); nullopt otherwise. For a socket source's reply.

@@ -9,7 +9,8 @@
 namespace stagewell {
 
 enum class ErrorKind {
-  invalid_argument,  // the caller asked for something out of range (a negative flow, an unknown site)
+  invalid_argument,  // the caller asked for something out of range (a negative flow, an unknown
+                     // site)
   impossible,        // well-formed but physically impossible (more than a closed conduit can carry)
   parse,             // malformed input text
   not_found,         // a file, site or record that does not exist

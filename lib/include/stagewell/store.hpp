@@ -129,7 +129,7 @@ class Store {
   Result<WriteBatch> begin();
 
   // How far `source` has been read; empty when it never was.
-  Result<std::optional<IngestProgress>> progress(std::string_view source);
+  Result<std::optional<IngestProgress>> committed_progress(std::string_view source);
 
   // The last `count` readings of `site` at or before `at_or_before_ms`, oldest first (to restore
   // the state of a site's checks at start-up).

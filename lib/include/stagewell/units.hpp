@@ -24,9 +24,9 @@ enum class System { metric, us };
 
 std::optional<System> parse_system(std::string_view text);  // "metric" | "us"
 std::string_view name(System system);
-double length_to_m(System system);        // metres in one length unit of the system
-double manning_k(System system);          // 1 in metric; (1/0.3048)^(1/3) = 1.4859185775... in US
-double gravity(System system);            // 9.80665 m/s^2, or 9.80665/0.3048 ft/s^2
+double length_to_m(System system);  // metres in one length unit of the system
+double manning_k(System system);    // 1 in metric; (1/0.3048)^(1/3) = 1.4859185775... in US
+double gravity(System system);      // 9.80665 m/s^2, or 9.80665/0.3048 ft/s^2
 std::string_view length_symbol(System system);     // "m" | "ft"
 std::string_view discharge_symbol(System system);  // "m³/s" | "ft³/s"
 std::string_view area_symbol(System system);       // "m²" | "ft²"
@@ -42,10 +42,10 @@ double to_m(Length unit);  // metres in one unit
 // Units a flow can be shown in.
 enum class Flow { m3_per_s, litres_per_s, ft3_per_s, us_gal_per_min, million_us_gal_per_day };
 std::optional<Flow> parse_flow(std::string_view text);  // "m3/s" "L/s" "ft3/s" "gal/min" "Mgal/d"
-std::string_view symbol(Flow unit);                      // with superscripts: "m³/s" ...
-std::string_view option_name(Flow unit);                 // the ASCII spelling parse_flow takes
+std::string_view symbol(Flow unit);                     // with superscripts: "m³/s" ...
+std::string_view option_name(Flow unit);                // the ASCII spelling parse_flow takes
 double to_m3_per_s(Flow unit);
-Flow default_flow(System system);                        // m3/s or ft3/s
+Flow default_flow(System system);  // m3/s or ft3/s
 
 // Units a volume can be shown in.
 enum class Volume { m3, megalitres, ft3, acre_ft, million_us_gal };
@@ -53,7 +53,7 @@ std::optional<Volume> parse_volume(std::string_view text);  // "m3" "ML" "ft3" "
 std::string_view symbol(Volume unit);
 std::string_view option_name(Volume unit);
 double to_m3(Volume unit);
-Volume default_volume(System system);                       // m3 or ft3
+Volume default_volume(System system);  // m3 or ft3
 
 // Lists for error messages and --help: "m, cm, mm, ft, in".
 std::string length_choices();

@@ -118,7 +118,7 @@ Result<std::unique_ptr<FileReader>> FileReader::open(const fs::path& path, const
   if (!reader) return std::unexpected(reader.error());
   out->reader_ = std::move(*reader);
 
-  auto stored = ingestor.stored_progress(out->source_key_);
+  auto stored = ingestor.committed_progress(out->source_key_);
   if (!stored) return std::unexpected(stored.error());
   std::int64_t offset = 0;
   if (*stored && (*stored)->file_identity == out->identity_ &&
@@ -150,8 +150,8 @@ Result<bool> FileReader::step(std::size_t max_bytes) {
     if (auto last = reader_->finish(); !last) return std::unexpected(last.error());
     finished_ = true;
   }
-  auto saved =
-      ingestor_->progress(source_key_, {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
+  auto saved = ingestor_->record_progress(
+      source_key_, {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
   if (!saved) return std::unexpected(saved.error());
   return finished_;
 }
@@ -190,7 +190,8 @@ Result<void> DropFolder::finish_current() {
   // its inode may be given to a new file dropped under the same name, which must not then be
   // taken as already read: forget it (committed with the next batch; until then the file in
   // done/ still holds the inode).
-  if (auto forgot = ingestor_.progress(absolute_key("folder", from), {"", 0, ingestor_.now_ms()});
+  if (auto forgot =
+          ingestor_.record_progress(absolute_key("folder", from), {"", 0, ingestor_.now_ms()});
       !forgot) {
     return forgot;
   }
@@ -328,7 +329,7 @@ Result<void> TailedFile::open_at(FileHandle file, const fs::path& path, std::int
 Result<void> TailedFile::start(bool resume) {
   std::optional<IngestProgress> stored;
   if (resume) {
-    auto progress = ingestor_.stored_progress(source_key_);
+    auto progress = ingestor_.committed_progress(source_key_);
     if (!progress) return std::unexpected(progress.error());
     stored = *progress;
   }
@@ -395,7 +396,7 @@ Result<void> TailedFile::finish_rotated() {
   // Nothing more will be appended to it: its last line counts even without a newline.
   if (auto last = reader_->finish(); !last) return last;
   // Done with it. The progress now belongs to whatever the path names, read from its start.
-  if (auto saved = ingestor_.progress(source_key_, {"", 0, ingestor_.now_ms()}); !saved) {
+  if (auto saved = ingestor_.record_progress(source_key_, {"", 0, ingestor_.now_ms()}); !saved) {
     return saved;
   }
   spdlog::info("{}: the rotated file {} is read to its end ({} lines); following the path anew",
@@ -441,8 +442,8 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
     offset_ += static_cast<std::int64_t>(*n);
   }
   if (done > 0) {
-    auto saved =
-        ingestor_.progress(source_key_, {identity_, reader_->consumed_bytes(), ingestor_.now_ms()});
+    auto saved = ingestor_.record_progress(
+        source_key_, {identity_, reader_->consumed_bytes(), ingestor_.now_ms()});
     if (!saved) return std::unexpected(saved.error());
   }
   if (!at_end) return true;

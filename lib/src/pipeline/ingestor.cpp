@@ -94,7 +94,7 @@ struct Ingestor::State {
   std::optional<daily::DailyKeeper> daily;  // empty when options.keep_daily is off
   std::int64_t opened_ms = 0;               // when the Ingestor was opened (alarms: stale)
   // PRAGMA data_version when the site state was last taken from the store: it changes when
-  // another connection (`stagewell ingest` or `reprocess` beside the service) commits.
+  // another connection (`stagewell ingest` or `recompute` beside the service) commits.
   std::optional<std::int64_t> data_version;
   // Alarm events written in the open batch, logged once it commits (never when it rolls back).
   std::vector<std::pair<const Site*, alarms::AlarmEvent>> alarm_log;
@@ -358,7 +358,8 @@ Result<void> Ingestor::reject(std::string_view kind, std::string_view reason,
   return {};
 }
 
-Result<void> Ingestor::progress(std::string_view source_key, const IngestProgress& progress) {
+Result<void> Ingestor::record_progress(std::string_view source_key,
+                                       const IngestProgress& progress) {
   auto batch = this->batch();
   if (!batch) return std::unexpected(batch.error());
   return (*batch)->set_progress(source_key, progress);
@@ -474,8 +475,8 @@ Result<void> Ingestor::tick_alarms() {
   return {};
 }
 
-Result<std::optional<IngestProgress>> Ingestor::stored_progress(std::string_view source_key) {
-  return state_->store.progress(source_key);
+Result<std::optional<IngestProgress>> Ingestor::committed_progress(std::string_view source_key) {
+  return state_->store.committed_progress(source_key);
 }
 
 }  // namespace stagewell

@@ -35,17 +35,17 @@ void RecomputeRecord::saw(ConfigVersionId before, ConfigVersionId after, std::in
 }
 
 Result<void> RecomputeRecord::write(sqlite::Connection& connection, SiteKey site,
-                                    std::int64_t at_ms, const ReprocessTotals& totals) {
+                                    std::int64_t at_ms, const RecomputationTotals& totals) {
   auto before = hashes(connection, before_);
   if (!before) return std::unexpected(before.error());
   auto after = hashes(connection, after_);
   if (!after) return std::unexpected(after.error());
   auto statement = connection.cached(
-      row_id_ ? "UPDATE recomputations SET period_from_ms = ?3, period_to_ms = ?4, "
+      row_id_ ? "UPDATE recomputation_runs SET period_from_ms = ?3, period_to_ms = ?4, "
                 "config_before = ?5, config_after = ?6, readings_changed = ?7, "
                 "max_discharge_change = ?8, max_daily_volume_change = ?9 "
                 "WHERE recomputation_id = ?10 AND site_key = ?1 AND at_ms = ?2"
-              : "INSERT INTO recomputations (site_key, at_ms, period_from_ms, period_to_ms, "
+              : "INSERT INTO recomputation_runs (site_key, at_ms, period_from_ms, period_to_ms, "
                 "config_before, config_after, readings_changed, max_discharge_change, "
                 "max_daily_volume_change) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)");
   if (!statement) return std::unexpected(statement.error());

@@ -1,5 +1,5 @@
-// The row of `recomputations` (schema/004_history.sql) that describes one recomputation of a
-// site: inserted with its first step and rewritten with each step after, inside the step's
+// The row of `recomputation_runs` (schema/004_history.sql, renamed by 005) that describes one
+// recomputation of a site: inserted with its first step and rewritten with each step after, inside the step's
 // transaction, so that it always agrees with the committed readings.
 #pragma once
 
@@ -7,7 +7,7 @@
 #include <optional>
 #include <vector>
 
-#include "stagewell/reprocess.hpp"
+#include "stagewell/recomputation.hpp"
 #include "stagewell/sqlite.hpp"
 #include "stagewell/store.hpp"
 
@@ -21,7 +21,7 @@ class RecomputeRecord {
 
   // Inserts or rewrites the row. REQUIRES: any(); a write transaction open on `connection`.
   Result<void> write(sqlite::Connection& connection, SiteKey site, std::int64_t at_ms,
-                     const ReprocessTotals& totals);
+                     const RecomputationTotals& totals);
 
  private:
   std::vector<ConfigVersionId> before_;  // distinct, in time order of first use

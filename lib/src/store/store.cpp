@@ -127,7 +127,7 @@ Result<SiteKey> Store::ensure_site(std::string_view id) {
   return SiteKey{(*select)->column_int64(0)};
 }
 
-Result<std::optional<IngestProgress>> Store::progress(std::string_view source) {
+Result<std::optional<IngestProgress>> Store::committed_progress(std::string_view source) {
   auto select = impl_->connection->cached(
       "SELECT file_identity, byte_offset, updated_ms FROM ingest_progress WHERE source = ?1");
   if (!select) return std::unexpected(select.error());

@@ -1,12 +1,9 @@
-// Shared pieces of the `stagewell` command-line program: exit codes, loading the configuration
-// with every error reported, number formatting, the caution line.
+// What every subcommand of `stagewell` shares: its exit codes, the work it registers, the
+// --config option, and loading the configuration or finding a site with every error reported.
 #pragma once
 
 #include <CLI/CLI.hpp>
 #include <functional>
-#include <iosfwd>
-#include <memory>
-#include <nlohmann/json_fwd.hpp>
 #include <optional>
 #include <string>
 
@@ -32,18 +29,5 @@ std::optional<Config> load_config_or_report(const std::string& path);
 
 // The site with this id, or prints the known ids to stderr and returns nullptr.
 const SiteConfig* find_site_or_report(const Config& config, const std::string& site_id);
-
-// A number for people: `significant` digits, no exponent for ordinary magnitudes.
-std::string format_number(double value, int significant = 4);
-
-// A number for JSON: full precision, null when not finite.
-nlohmann::json json_number(double value);
-
-// The short caution printed under results meant for people.
-void print_caution(std::ostream& out);
-
-// One line describing a site's section, e.g. "trapezoidal, bottom 3 m, side slopes 1.5:1, 1.2 m
-// deep".
-std::string describe_section(const SectionSpec& spec, units::System system);
 
 }  // namespace stagewell::cli

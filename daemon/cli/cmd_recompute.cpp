@@ -1,4 +1,4 @@
-// `stagewell reprocess`: recompute a site's stored readings whose configuration version is not
+// `stagewell recompute`: recompute a site's stored readings whose configuration version is not
 // the one their period has now (after an edit of its history or corrections), on demand. The
 // daemon does the same by itself when it loads a configuration; this command is for a database
 // the daemon is not running on, or to see the summary.
@@ -10,8 +10,9 @@
 #include <memory>
 
 #include "commands.hpp"
+#include "output_format.hpp"
 #include "progress.hpp"
-#include "stagewell/reprocess.hpp"
+#include "stagewell/recomputation.hpp"
 #include "stagewell/store.hpp"
 #include "stagewell/timestamp.hpp"
 
@@ -22,7 +23,7 @@ namespace {
 // another writer (the daemon) waits well under a second for the lock.
 constexpr std::int64_t kStepReadings = 5000;
 
-struct ReprocessOptions {
+struct RecomputeOptions {
   std::string config_path;
   std::string site;
   std::string from;  // RFC 3339; empty: from the first reading
@@ -30,7 +31,7 @@ struct ReprocessOptions {
   bool quiet = false;
 };
 
-void print_summary(const ReprocessTotals& totals, units::System system) {
+void print_summary(const RecomputationTotals& totals, units::System system) {
   const bool metric = system == units::System::metric;
   if (!totals.period_from_ms) {
     std::cout << "nothing to recompute: every reading was computed with its period's version\n";
@@ -62,7 +63,7 @@ std::optional<std::int64_t> parse_time_option(const std::string& text, std::stri
   return *parsed;
 }
 
-int run_reprocess(const ReprocessOptions& options) {
+int run_recompute(const RecomputeOptions& options) {
   auto config = load_config_or_report(options.config_path);
   if (!config) return kInvalidInput;
   if (!find_site_or_report(*config, options.site)) return kInvalidInput;
@@ -84,14 +85,14 @@ int run_reprocess(const ReprocessOptions& options) {
               << store.error().message << '\n';
     return kInvalidInput;
   }
-  auto reprocessor = Reprocessor::plan(*store, *config, options.site, system_now_ms(), *from, *to);
-  if (!reprocessor) {
-    std::cerr << reprocessor.error().message << '\n';
+  auto planned = Recomputation::plan(*store, *config, options.site, system_now_ms(), *from, *to);
+  if (!planned) {
+    std::cerr << planned.error().message << '\n';
     return kInvalidInput;
   }
   catch_interrupts();
   ProgressDisplay progress(options.quiet);
-  auto& work = **reprocessor;
+  auto& work = **planned;
   while (!work.done()) {
     if (auto stepped = work.step(*store, kStepReadings); !stepped) {
       std::cerr << "\nrecomputation failed: " << stepped.error().message
@@ -114,11 +115,12 @@ int run_reprocess(const ReprocessOptions& options) {
 
 }  // namespace
 
-void add_reprocess_command(CLI::App& program, Action& chosen) {
+void add_recompute_command(CLI::App& program, Action& chosen) {
   auto* command = program.add_subcommand(
-      "reprocess",
+      "recompute",
       "Recompute a site's stored readings after its history or corrections were edited");
-  auto options = std::make_shared<ReprocessOptions>();
+  command->alias("reprocess");  // its first name: scripts that use it keep working
+  auto options = std::make_shared<RecomputeOptions>();
   add_config_option(*command, options->config_path);
   command->add_option("-s,--site", options->site, "The site to recompute")->required();
   command->add_option("--from", options->from,
@@ -129,9 +131,9 @@ void add_reprocess_command(CLI::App& program, Action& chosen) {
       "Recomputes the readings whose stored configuration version differs from the one their "
       "period has in the configuration (changes and corrections), in transactions of 5000 "
       "readings, and refreshes the daily figures of the days they touch. Running it again finds "
-      "nothing to do. Each run that recomputes something adds a row to the `changes` view.");
+      "nothing to do. Each run that recomputes something adds a row to the `recomputations` view.");
   command->final_callback(
-      [&chosen, options] { chosen = [options] { return run_reprocess(*options); }; });
+      [&chosen, options] { chosen = [options] { return run_recompute(*options); }; });
 }
 
 }  // namespace stagewell::cli

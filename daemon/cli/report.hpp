@@ -1,5 +1,5 @@
-// What `stagewell daily`, `stats` and `plot` share: their options for the site, the period and
-// the units, and opening the site's daily figures read-only.
+// What the reports `stagewell daily`, `stats` and `plot` share: their options for the site, the
+// period and the units, and opening the site's daily figures read-only.
 #pragma once
 
 #include <CLI/CLI.hpp>
@@ -9,7 +9,8 @@
 #include <string>
 #include <vector>
 
-#include "common.hpp"
+#include "command.hpp"
+#include "output_format.hpp"
 #include "stagewell/daily_reader.hpp"
 #include "stagewell/statistics.hpp"
 

@@ -1,6 +1,6 @@
-// The Reprocessor (reprocess.hpp): finds the readings to redo, walks them in steps of one
+// The Recomputation (recomputation.hpp): finds the readings to redo, walks them in steps of one
 // transaction, and keeps the record of the recomputation (recompute_record.cpp) current.
-#include "stagewell/reprocess.hpp"
+#include "stagewell/recomputation.hpp"
 
 #include <fmt/format.h>
 
@@ -44,14 +44,14 @@ double difference(std::optional<double> a, std::optional<double> b) {
 
 }  // namespace
 
-struct Reprocessor::State {
+struct Recomputation::State {
   const Config* config = nullptr;
   const SiteConfig* site = nullptr;
   SiteKey key;
   SiteHistory history;
   daily::DayCalendar calendar;
   daily::DayRules rules;
-  ReprocessTotals totals;
+  RecomputationTotals totals;
   std::int64_t started_ms = 0;
   std::int64_t cursor_ms = 0;  // the next reading to walk is at or after this
   bool finished = false;
@@ -147,17 +147,18 @@ Result<void> update_reading(sqlite::Connection& connection, SiteKey key, std::in
 
 }  // namespace
 
-Reprocessor::Reprocessor(std::unique_ptr<State> state) : state_(std::move(state)) {}
-Reprocessor::~Reprocessor() = default;
+Recomputation::Recomputation(std::unique_ptr<State> state) : state_(std::move(state)) {}
+Recomputation::~Recomputation() = default;
 
-bool Reprocessor::done() const { return state_->finished; }
-const ReprocessTotals& Reprocessor::totals() const { return state_->totals; }
-const std::string& Reprocessor::site_id() const { return state_->site->id; }
+bool Recomputation::done() const { return state_->finished; }
+const RecomputationTotals& Recomputation::totals() const { return state_->totals; }
+const std::string& Recomputation::site_id() const { return state_->site->id; }
 
-Result<std::unique_ptr<Reprocessor>> Reprocessor::plan(Store& store, const Config& config,
-                                                       std::string_view site_id,
-                                                       std::int64_t now_ms, std::int64_t from_ms,
-                                                       std::int64_t to_ms) {
+Result<std::unique_ptr<Recomputation>> Recomputation::plan(Store& store, const Config& config,
+                                                           std::string_view site_id,
+                                                           std::int64_t now_ms,
+                                                           std::int64_t from_ms,
+                                                           std::int64_t to_ms) {
   const SiteConfig* site = config.find_site(site_id);
   if (site == nullptr) {
     return fail(ErrorKind::not_found,
@@ -194,7 +195,7 @@ Result<std::unique_ptr<Reprocessor>> Reprocessor::plan(Store& store, const Confi
   }
   if (!totals.period_from_ms) {
     state->finished = true;
-    return std::unique_ptr<Reprocessor>(new Reprocessor(std::move(state)));
+    return std::unique_ptr<Recomputation>(new Recomputation(std::move(state)));
   }
   auto count = count_between(connection, *key, *totals.period_from_ms, *totals.period_to_ms);
   if (!count) return std::unexpected(count.error());
@@ -211,10 +212,10 @@ Result<std::unique_ptr<Reprocessor>> Reprocessor::plan(Store& store, const Confi
   }
   const std::vector<PastReading> seed(state->recent.begin(), state->recent.end());
   state->checker.seed(seed);
-  return std::unique_ptr<Reprocessor>(new Reprocessor(std::move(state)));
+  return std::unique_ptr<Recomputation>(new Recomputation(std::move(state)));
 }
 
-Result<void> Reprocessor::step(Store& store, std::int64_t max_readings) {
+Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   State& s = *state_;
   if (s.broken) return fail(ErrorKind::invalid_argument, "a failed recomputation cannot go on");
   if (s.finished) return {};

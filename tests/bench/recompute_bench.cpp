@@ -1,9 +1,9 @@
 // Recomputation after an edit of a site's history: one site-year of one-minute readings (525,600,
 // UTC) stored once; each iteration moves a change of roughness (from 15 January) between two
 // values and recomputes the 505,440 readings after it and their daily figures with the
-// Reprocessor, in the daemon's steps of 2000 readings.
+// Recomputation, in the daemon's steps of 2000 readings.
 //
-//   build/tests/bench/reprocess_bench
+//   build/tests/bench/recompute_bench
 //
 // Target: <= 10 s per site-year on the 2-core machine (the daemon's live ingest shares the loop
 // between steps). Never run by ctest.
@@ -15,7 +15,7 @@
 #include <filesystem>
 
 #include "stagewell/ingestor.hpp"
-#include "stagewell/reprocess.hpp"
+#include "stagewell/recomputation.hpp"
 
 namespace {
 
@@ -47,9 +47,9 @@ Config must_parse(const std::string& text) {
   return *config;
 }
 
-void BM_ReprocessSiteYear(benchmark::State& state) {
+void BM_RecomputeSiteYear(benchmark::State& state) {
   std::string pattern =
-      (std::filesystem::temp_directory_path() / "reprocess-bench-XXXXXX").string();
+      (std::filesystem::temp_directory_path() / "recompute-bench-XXXXXX").string();
   if (::mkdtemp(pattern.data()) == nullptr) std::abort();
   const std::filesystem::path dir(pattern);
   const auto db = dir / "flows.db";
@@ -73,7 +73,7 @@ void BM_ReprocessSiteYear(benchmark::State& state) {
   for (auto _ : state) {
     toggle = !toggle;
     const Config config = must_parse(config_text(db, toggle ? 0.030 : 0.020));
-    auto work = Reprocessor::plan(*store, config, "canal", kYearStartMs * 2);
+    auto work = Recomputation::plan(*store, config, "canal", kYearStartMs * 2);
     if (!work) std::abort();
     while (!(*work)->done()) {
       if (!(*work)->step(*store, kStepReadings)) std::abort();
@@ -84,7 +84,7 @@ void BM_ReprocessSiteYear(benchmark::State& state) {
       benchmark::Counter(static_cast<double>(recomputed), benchmark::Counter::kIsRate);
   std::filesystem::remove_all(dir);
 }
-BENCHMARK(BM_ReprocessSiteYear)->Unit(benchmark::kSecond)->Iterations(3)->UseRealTime();
+BENCHMARK(BM_RecomputeSiteYear)->Unit(benchmark::kSecond)->Iterations(3)->UseRealTime();
 
 }  // namespace
 

@@ -2,7 +2,7 @@
 // (site_history.hpp): after a change of a site's history or corrections, the readings of the
 // periods concerned — and only those — get new depth, discharge and flags, and the daily figures
 // of the local days they touch are refreshed. Each recomputation of a site is recorded in the
-// `recomputations` table (the `changes` view).
+// `recomputation_runs` table (the `recomputations` view).
 //
 // Work is done in bounded steps, one transaction each, so that a caller sharing the database
 // connection (the daemon's ingest) can commit its own batches between them. The stored raw stage
@@ -15,7 +15,7 @@
 // Idempotent: a recomputed reading carries its period's version, so a second run over the same
 // configuration finds nothing to do and records nothing.
 //
-// Not thread-safe. REQUIRES: the Config outlives the Reprocessor.
+// Not thread-safe. REQUIRES: the Config outlives the Recomputation.
 #pragma once
 
 #include <cstdint>
@@ -29,7 +29,7 @@
 
 namespace stagewell {
 
-struct ReprocessTotals {
+struct RecomputationTotals {
   std::int64_t readings_in_period = 0;   // stored readings from the first to the last to redo
   std::int64_t readings_walked = 0;      // of those, done so far
   std::int64_t readings_recomputed = 0;  // given their period's version (it was another)
@@ -41,31 +41,31 @@ struct ReprocessTotals {
   std::optional<std::int64_t> period_to_ms;    // last reading to redo, included
 };
 
-class Reprocessor {
+class Recomputation {
  public:
   // Finds the readings of `site_id` timed in [from_ms, to_ms) that were computed with another
   // version than their period's. Records the periods' versions.
   // REQUIRES: a site of `config`; no write batch open on `store`.
-  static Result<std::unique_ptr<Reprocessor>> plan(
+  static Result<std::unique_ptr<Recomputation>> plan(
       Store& store, const Config& config, std::string_view site_id, std::int64_t now_ms,
       std::int64_t from_ms = std::numeric_limits<std::int64_t>::min(),
       std::int64_t to_ms = std::numeric_limits<std::int64_t>::max());
-  ~Reprocessor();
+  ~Recomputation();
 
   // True when nothing is left to do.
   bool done() const;
   // Recomputes the next `max_readings` readings of the period, and the daily figures they touch,
-  // in one transaction. After a failure nothing of the step is stored and the Reprocessor must
+  // in one transaction. After a failure nothing of the step is stored and the Recomputation must
   // not be used again (plan anew: the work left is found again).
   // REQUIRES: no write batch open on `store`.
   Result<void> step(Store& store, std::int64_t max_readings);
 
-  const ReprocessTotals& totals() const;
+  const RecomputationTotals& totals() const;
   const std::string& site_id() const;
 
  private:
   struct State;
-  explicit Reprocessor(std::unique_ptr<State> state);
+  explicit Recomputation(std::unique_ptr<State> state);
   std::unique_ptr<State> state_;
 };
 

@@ -2,7 +2,7 @@
 while live readings from a followed file keep being stored: each new reading must become visible
 while readings of the changed period still carry the old version. Afterwards every recomputed and
 every live reading is checked against Manning's equation in closed form (daemon_support.rectangular;
-Q = (1/n) A R^(2/3) S^(1/2), SI, common practice), and the `changes` view holds one row.
+Q = (1/n) A R^(2/3) S^(1/2), SI, common practice), and the `recomputations` view holds one row.
 
 Then a crash (SIGKILL) in the middle of another recomputation: after a restart every reading is
 recomputed exactly once across the two runs.
@@ -125,8 +125,8 @@ def main():
         r.check("no reading left with the old version after the change", ds.count(
             db, "SELECT count(*) FROM readings WHERE config_id = ? AND time_ms >= ?",
             (old_id, CHANGE_MS)) == 0)
-        changes = ds.query(db, "SELECT readings_changed, period_from FROM changes")
-        r.check("one row in changes", len(changes) == 1, str(changes))
+        changes = ds.query(db, "SELECT readings_changed, period_from FROM recomputations")
+        r.check("one row in recomputations", len(changes) == 1, str(changes))
         if changes:
             r.check("readings_changed: the year after the change",
                     changes[0][0] == YEAR_READINGS - 14 * 1440, str(changes[0]))
@@ -142,7 +142,7 @@ def main():
         with ds.Daemon(daemon_program, config, log) as daemon:
             daemon.start()
             r.check("a step committed before the crash", ds.wait_until(
-                lambda: ds.count(db, "SELECT count(*) FROM changes") == 2, 120), daemon.log())
+                lambda: ds.count(db, "SELECT count(*) FROM recomputations") == 2, 120), daemon.log())
             daemon.kill9()
         with ds.Daemon(daemon_program, config, log) as daemon:
             daemon.start()
@@ -156,7 +156,7 @@ def main():
             worst = max(worst, abs(q - want) / want)
         r.check("after the crash every reading matches Manning's equation with its n",
                 worst < 1e-5, f"worst relative error {worst:.2e}")
-        rows = ds.query(db, "SELECT readings_changed FROM recomputations "
+        rows = ds.query(db, "SELECT readings_changed FROM recomputation_runs "
                            "WHERE recomputation_id > 1")
         changed = sum(n for (n,) in rows)
         want_changed = YEAR_READINGS - 14 * 1440 + fed

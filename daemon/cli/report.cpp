@@ -1,4 +1,4 @@
-#include "daily_common.hpp"
+#include "report.hpp"
 
 #include <cctz/time_zone.h>
 #include <fmt/format.h>

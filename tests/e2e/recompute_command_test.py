@@ -1,7 +1,7 @@
-"""`stagewell reprocess` after a site's history and corrections are edited: readings on both sides
+"""`stagewell recompute` after a site's history and corrections are edited: readings on both sides
 of a change checked against Manning's equation in closed form (daemon_support.rectangular), a
 drift checked at its start, middle and end against its closed form, a day's volume across a
-change against numpy.trapz, the `changes` view, the `version` column, idempotence, and a bad
+change against numpy.trapz, the `recomputations` view, the `version` column, idempotence, and a bad
 configuration refused with file:line:col.
 
 References: Manning's equation Q = (1/n) A R^(2/3) S^(1/2), SI (common practice; V. T. Chow,
@@ -123,16 +123,16 @@ def main():
         r.check("one version before the edit", len(old_versions) == 1, str(old_versions))
 
         # Nothing to do while the configuration is unchanged.
-        again = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
+        again = run(args, stagewell, "recompute", "--config", config, "--site", "canal")
         r.check("unchanged: nothing to do", "nothing to recompute" in again.stdout, again.stdout)
 
         ds.write(config, BASE.replace("    checks: {max_gap: 1h}\n",
                                       "    checks: {max_gap: 1h}\n" + HISTORY)
                  + RACEWAY_HISTORY)
-        done = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
-        r.check("reprocess runs", done.returncode == 0, done.stderr + done.stdout)
-        raceway = run(args, stagewell, "reprocess", "--config", config, "--site", "raceway")
-        r.check("reprocess of the raceway runs", raceway.returncode == 0,
+        done = run(args, stagewell, "recompute", "--config", config, "--site", "canal")
+        r.check("recompute runs", done.returncode == 0, done.stderr + done.stdout)
+        raceway = run(args, stagewell, "recompute", "--config", config, "--site", "raceway")
+        r.check("recompute of the raceway runs", raceway.returncode == 0,
                 raceway.stderr + raceway.stdout)
 
         # The raceway on both sides of its change of section and offset, and in its corrected
@@ -203,8 +203,8 @@ def main():
         # The record of the recomputation.
         rows = ds.query(db, "SELECT at, site, period_from, period_to, config_before, config_after, "
                             "readings_changed, max_discharge_change, max_daily_volume_change "
-                            "FROM changes WHERE site = 'canal'")
-        r.check("one row in changes", len(rows) == 1, str(rows))
+                            "FROM recomputations WHERE site = 'canal'")
+        r.check("one row in recomputations", len(rows) == 1, str(rows))
         if rows:
             (at, site, p_from, p_to, c_before, c_after, changed, max_dq, max_dv) = rows[0]
             # Readings whose discharge changes: after the change, and in the drift but its start.
@@ -229,11 +229,11 @@ def main():
         r.check("summary: units of the discharge change", "m^3/s" in summary, summary)
 
         # Idempotent: a second run does nothing and records nothing.
-        second = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
+        second = run(args, stagewell, "recompute", "--config", config, "--site", "canal")
         r.check("second run: nothing to do", "nothing to recompute" in second.stdout,
                 second.stdout)
         r.check("second run: no second row",
-                ds.count(db, "SELECT count(*) FROM changes WHERE site = 'canal'") == 1)
+                ds.count(db, "SELECT count(*) FROM recomputations WHERE site = 'canal'") == 1)
         after_second = {t: q for t, q in ds.query(
             db, "SELECT round(unix_time * 1000), discharge FROM discharge WHERE site = 'canal'")}
         r.check("second run: no value changed",
@@ -244,10 +244,10 @@ def main():
       - from: last june
         roughness: 0.02
 """)
-        bad = run(args, stagewell, "reprocess", "--config", config, "--site", "canal")
+        bad = run(args, stagewell, "recompute", "--config", config, "--site", "canal")
         r.check("bad from refused", bad.returncode == 1 and
                 f"{config}:15:15: sites[1].changes[0].from = last june" in bad.stderr, bad.stderr)
-        r.check("bad edit: nothing recorded", ds.count(db, "SELECT count(*) FROM changes") == 2)
+        r.check("bad edit: nothing recorded", ds.count(db, "SELECT count(*) FROM recomputations") == 2)
     return r.finish()
 
 
