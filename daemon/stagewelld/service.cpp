@@ -102,6 +102,16 @@ bool Service::start() {
 
 bool Service::open(const Config& config) {
   ensure_directory(config.database.parent_path(), "database directory");
+  // One service per database: taken before the database is opened, kept across reloads that
+  // keep the database, and moved when a reload names another one.
+  if (!lock_ || lock_->path() != ServiceLock::path_for(config.database)) {
+    auto lock = ServiceLock::acquire(config.database);
+    if (!lock) {
+      spdlog::error("{}", lock.error().message);
+      return false;
+    }
+    lock_ = std::move(*lock);
+  }
   for (const auto& spec : config.sources) {
     ensure_directory(spec.type == SourceSpec::Type::directory ? spec.path : spec.path.parent_path(),
                      "source directory");

@@ -11,6 +11,7 @@
 #include <boost/asio/signal_set.hpp>
 #include <boost/asio/steady_timer.hpp>
 #include <memory>
+#include <optional>
 #include <string>
 #include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
 #include <vector>
@@ -20,6 +21,7 @@
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
 #include "stagewell/recomputation.hpp"
+#include "stagewell/service_lock.hpp"
 #include "tcp_listener.hpp"  // tcp sources
 
 namespace stagewell::service {
@@ -60,6 +62,7 @@ class Service {
   boost::asio::signal_set signals_;
   boost::asio::steady_timer poll_timer_;
   boost::asio::steady_timer alarm_timer_;
+  std::optional<ServiceLock> lock_;  // one service per database (service_lock.hpp)
   std::unique_ptr<Ingestor> ingestor_;
   std::vector<std::unique_ptr<Source>> sources_;
   std::unique_ptr<TcpSources> tcp_;  // tcp sources; declared after ingestor_: goes first
