@@ -32,8 +32,8 @@
 
 #include "stagewell/config.hpp"
 #include "stagewell/ingestor.hpp"
+#include "stagewell/line_intake.hpp"
 #include "stagewell/line_splitter.hpp"
-#include "stagewell/records.hpp"
 #include "stagewell/result.hpp"
 
 namespace stagewell::service {
@@ -77,8 +77,7 @@ class TcpIntake {
   std::int64_t acked() const { return acked_; }
 
  private:
-  TcpIntake(const SourceSpec& spec, std::string source_name, Ingestor& ingestor,
-            RecordParser parser);
+  TcpIntake(const SourceSpec& spec, LineIntake intake);
   void on_line(const Line& line);
   bool authenticate(const Line& line);  // true when the line was the connection's `auth` line
   void choose_columns(const Line& line);
@@ -88,9 +87,7 @@ class TcpIntake {
   ColumnNames columns_;
   bool need_site_ = true;       // no fixed site: lines carry one
   std::string default_header_;  // the header assumed when the client sends none
-  std::string source_name_;
-  Ingestor* ingestor_;
-  RecordParser parser_;
+  LineIntake intake_;
   LineSplitter splitter_;
   std::string* replies_ = nullptr;  // where on_line writes, during feed() and finish()
   bool authenticated_ = false;
