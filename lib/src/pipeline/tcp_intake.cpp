@@ -1,8 +1,8 @@
-#include "tcp_intake.hpp"
+#include "stagewell/tcp_intake.hpp"
 
 #include <fmt/format.h>
 
-namespace stagewell::service {
+namespace stagewell {
 namespace {
 
 constexpr std::string_view kByteOrderMark = "\xEF\xBB\xBF";
@@ -53,6 +53,9 @@ std::string refused(std::string_view what, std::string_view reason) {
 std::string closing(std::string_view reason) {
   return fmt::format("closing {}\n", one_line(reason));
 }
+std::string store_failed() {
+  return closing("the store failed; send again the lines after your last ok");
+}
 }  // namespace reply
 
 bool same_secret(std::string_view given, std::string_view secret) {
@@ -99,6 +102,14 @@ Result<void> TcpIntake::finish(std::string& replies) {
 
 void TcpIntake::committed() { acked_ = number_; }
 
+bool TcpIntake::batch_dropped(std::string& replies) {
+  if (!awaiting_commit()) return false;
+  report_ack(replies);
+  replies += reply::store_failed();
+  dropped_ = true;
+  return true;
+}
+
 void TcpIntake::report_ack(std::string& replies) {
   if (acked_ <= reported_ || refusal_) return;
   replies += reply::ok(acked_);
@@ -141,7 +152,8 @@ void TcpIntake::choose_columns(const Line& line) {
 }
 
 void TcpIntake::on_line(const Line& raw_line) {
-  if (!status_ || refusal_) return;  // spoiled batch or refused: nothing more is read
+  // A spoiled or dropped batch, or a refusal: nothing more is read.
+  if (!status_ || dropped_ || refusal_) return;
   if (!authenticated_ && authenticate(raw_line)) return;
   const Line line{raw_line.text, ++number_, raw_line.too_long};
   if (!intake_.has_header()) choose_columns(line);
@@ -161,4 +173,4 @@ void TcpIntake::on_line(const Line& raw_line) {
   if (last_stored_line_ <= acked_) acked_ = number_;
 }
 
-}  // namespace stagewell::service
+}  // namespace stagewell
