@@ -47,6 +47,8 @@ class FileReader {
 
  private:
   FileReader() = default;
+  // Stores how far the file is processed, in the open batch.
+  Result<void> save_progress();
   std::filesystem::path path_;
   std::string source_key_;
   std::string identity_;
@@ -92,13 +94,14 @@ inline constexpr std::int64_t kRotatedQuietMs = 2000;
 // A file a logger keeps appending to.
 //
 // Truncation: when the file is shorter than what was read, or the last bytes read are no longer
-// where they were (the file was truncated and rewritten longer between two polls), it is read
-// again from the start. Rotation: when the path names another file, or none, the old file is
-// still read until it has been unchanged for kRotatedQuietMs, its last line counting even without
-// a newline; then the file at the path is read from its start. Restart: the stored progress names
-// the file (device:inode) and offset; if the path now names another file, a file with the stored
-// identity in the same directory (rotated while the service was stopped) is read to its end first.
-// Not noticed: a file truncated and rewritten to at least its old length while stopped.
+// where they were (the file was truncated and rewritten longer between two polls, or between two
+// reads of one poll), it is read again from the start. Rotation: when the path names another file,
+// or none, the old file is still read until it has been unchanged for kRotatedQuietMs, its last
+// line counting even without a newline; then the file at the path is read from its start. Restart:
+// the stored progress names the file (device:inode) and offset; if the path now names another file,
+// a file with the stored identity in the same directory (rotated while the service was stopped) is
+// read to its end first. Not noticed: a file truncated and rewritten to at least its old length
+// while stopped.
 class TailedFile {
  public:
   TailedFile(SourceSpec spec, Ingestor& ingestor, FileSystem& files = posix_file_system());
@@ -114,8 +117,14 @@ class TailedFile {
   Result<void> start(bool resume);
   Result<void> open_at(std::unique_ptr<ReadableFile> file, const std::filesystem::path& path,
                        std::int64_t offset);
-  // True when the bytes before offset_ are not the ones read (truncated or rewritten).
+  // True when the file is shorter than offset_ or last_bytes_moved() (truncated or rewritten).
   Result<bool> rewritten(std::int64_t size_bytes);
+  // True when the bytes before offset_ are not the ones read.
+  Result<bool> last_bytes_moved();
+  // The file was truncated or rewritten: it is read again from its start.
+  Result<void> read_again(std::int64_t size_bytes);
+  // Stores how far the file is processed, in the open batch.
+  Result<void> save_progress();
   // The rotated file is finished: its last line is processed and the path is followed anew.
   Result<void> finish_rotated();
 

@@ -84,7 +84,14 @@ Result<bool> FileReader::step(std::size_t max_bytes) {
   bool at_end = false;
   while (done < max_bytes) {
     auto n = file_->read(buffer.data(), std::min(buffer.size(), max_bytes - done));
-    if (!n) return std::unexpected(n.error());
+    if (!n) {
+      // What was fed before the failed read is in the batch: its progress goes with it, so that
+      // a restart does not read it again (its rejects would be kept twice).
+      if (done > 0) {
+        if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
+      }
+      return std::unexpected(n.error());
+    }
     if (*n == 0) {
       at_end = true;
       break;
@@ -96,10 +103,13 @@ Result<bool> FileReader::step(std::size_t max_bytes) {
     if (auto last = reader_->finish(); !last) return std::unexpected(last.error());
     finished_ = true;
   }
-  auto saved = ingestor_->record_progress(
-      source_key_, {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
-  if (!saved) return std::unexpected(saved.error());
+  if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
   return finished_;
+}
+
+Result<void> FileReader::save_progress() {
+  return ingestor_->record_progress(source_key_,
+                                    {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
 }
 
 // ---- DropFolder -------------------------------------------------------------------------------
@@ -124,9 +134,18 @@ Result<void> DropFolder::finish_current() {
     if (!taken) return std::unexpected(taken.error());
     to = done_dir / fmt::format("{}.{}", from.filename().string(), i);
   }
-  if (auto moved = files_.rename(from, to); !moved) return moved;
-  spdlog::info("{}: read to the end ({} lines), moved to {}", from.string(), current_->lines(),
-               to.string());
+  if (auto moved = files_.rename(from, to); !moved) {
+    // Removed by someone else once read: nothing is left to move, and the folder goes on (its
+    // lines are stored). Any other failure is retried at the next poll.
+    auto there = files_.status(from);
+    if (there || there.error().kind != ErrorKind::not_found) return moved;
+    spdlog::warn("{}: read to the end ({} lines), then removed before it could be moved",
+                 from.string(), current_->lines());
+  } else {
+    spdlog::info("{}: read to the end ({} lines), moved to {}", from.string(), current_->lines(),
+                 to.string());
+    ++files_done_;
+  }
   // The stored progress named the file by device and inode. Once the file in done/ is deleted,
   // its inode may be given to a new file dropped under the same name, which must not then be
   // taken as already read: forget it (committed with the next batch; until then the file in
@@ -137,7 +156,6 @@ Result<void> DropFolder::finish_current() {
     return forgot;
   }
   current_.reset();
-  ++files_done_;
   return {};
 }
 
@@ -319,6 +337,10 @@ Result<void> TailedFile::start(bool resume) {
 
 Result<bool> TailedFile::rewritten(std::int64_t size_bytes) {
   if (size_bytes < offset_) return true;
+  return last_bytes_moved();
+}
+
+Result<bool> TailedFile::last_bytes_moved() {
   if (last_bytes_.empty()) return false;
   const auto kept = static_cast<std::int64_t>(last_bytes_.size());
   auto now = read_at(*file_, offset_ - kept, last_bytes_.size());
@@ -339,23 +361,33 @@ Result<void> TailedFile::finish_rotated() {
   return {};
 }
 
+Result<void> TailedFile::save_progress() {
+  return ingestor_.record_progress(source_key_,
+                                   {identity_, reader_->consumed_bytes(), ingestor_.now_ms()});
+}
+
+Result<void> TailedFile::read_again(std::int64_t size_bytes) {
+  spdlog::warn(
+      "{}: truncated or rewritten ({} bytes now, {} were read); reading it again from the "
+      "start",
+      spec_.path.string(), size_bytes, offset_);
+  reset();
+  return start(/*resume=*/false);
+}
+
 Result<bool> TailedFile::poll(std::size_t max_bytes) {
   if (!file_) {
     if (auto started = start(/*resume=*/true); !started) return std::unexpected(started.error());
     if (!file_) return false;
   }
-  auto status = file_->status();
-  if (!status) return std::unexpected(status.error());
   if (!rotated_quiet_since_ms_) {
+    auto status = file_->status();
+    if (!status) return std::unexpected(status.error());
     auto changed = rewritten(status->size_bytes);
     if (!changed) return std::unexpected(changed.error());
     if (*changed) {
-      spdlog::warn(
-          "{}: truncated or rewritten ({} bytes now, {} were read); reading it again "
-          "from the start",
-          spec_.path.string(), status->size_bytes, offset_);
-      reset();
-      if (auto started = start(/*resume=*/false); !started) return std::unexpected(started.error());
+      if (auto again = read_again(status->size_bytes); !again)
+        return std::unexpected(again.error());
       if (!file_) return false;
     }
   }
@@ -365,10 +397,36 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
   bool at_end = false;
   while (done < max_bytes) {
     auto n = file_->read(buffer.data(), std::min(buffer.size(), max_bytes - done));
-    if (!n) return std::unexpected(n.error());
+    if (!n) {
+      // What was fed before the failed read is in the batch: its progress goes with it, so that
+      // a restart does not read it again (its rejects would be kept twice).
+      if (done > 0) {
+        if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
+      }
+      return std::unexpected(n.error());
+    }
     if (*n == 0) {
       at_end = true;
       break;
+    }
+    // The bytes read follow those read before only if those are still in place: a file truncated
+    // and rewritten between two reads would give a line made of pieces of both, and the new
+    // file's lines before this offset would never be read. Checked after the read, so that a
+    // rewrite at any moment before it is seen.
+    if (!rotated_quiet_since_ms_) {
+      auto changed = last_bytes_moved();
+      if (!changed) return std::unexpected(changed.error());
+      if (*changed) {
+        if (done > 0) {
+          if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
+        }
+        auto size = file_->status();
+        if (!size) return std::unexpected(size.error());
+        if (auto again = read_again(size->size_bytes); !again) {
+          return std::unexpected(again.error());
+        }
+        return true;  // the new file waits
+      }
     }
     if (auto fed = reader_->feed({buffer.data(), *n}); !fed) return std::unexpected(fed.error());
     keep_last_bytes(last_bytes_, {buffer.data(), *n});
@@ -376,9 +434,7 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
     offset_ += static_cast<std::int64_t>(*n);
   }
   if (done > 0) {
-    auto saved = ingestor_.record_progress(
-        source_key_, {identity_, reader_->consumed_bytes(), ingestor_.now_ms()});
-    if (!saved) return std::unexpected(saved.error());
+    if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
   }
   if (!at_end) return true;
 
