@@ -25,13 +25,12 @@ namespace fs = std::filesystem;
 
 TEST_CASE("drop folder: a failed read is retried at the next poll; nothing lost or doubled") {
   Service service;
-  const fs::path folder = service.dir.path() / "in";
-  fs::create_directories(folder);
+  const fs::path folder = service.folder();
   const Input input = lines(0, 60);
   write_file(folder / "a.csv", input.text);
   FaultyFiles files;
-  files.before_read = [](int n) { return n == 3 ? std::optional(read_error()) : std::nullopt; };
-  DropFolder drop(service.spec(SourceSpec::Type::directory, folder), *service.ingestor, 0, files);
+  files.fail_read(3);
+  DropFolder drop = service.drop_folder(files);
   service.run(drop, 256);
 
   REQUIRE(service.source_errors.size() == 1);  // the one injected
@@ -42,14 +41,13 @@ TEST_CASE("drop folder: a failed read is retried at the next poll; nothing lost 
 
 TEST_CASE("drop folder: a failed read, then a dropped batch: resumed from committed progress") {
   Service service;
-  const fs::path folder = service.dir.path() / "in";
-  fs::create_directories(folder);
+  const fs::path folder = service.folder();
   const Input input = lines(0, 60);
   write_file(folder / "a.csv", input.text);
   FaultyFiles files;
   files.most_bytes = 100;  // as in the tail case below: the failed read follows one that fed
-  files.before_read = [](int n) { return n == 5 ? std::optional(read_error()) : std::nullopt; };
-  DropFolder drop(service.spec(SourceSpec::Type::directory, folder), *service.ingestor, 0, files);
+  files.fail_read(5);
+  DropFolder drop = service.drop_folder(files);
   service.fail_commit_drop(drop, 256);
   check_stored_once(service, input);
   CHECK(fs::exists(folder / "done" / "a.csv"));
@@ -57,13 +55,12 @@ TEST_CASE("drop folder: a failed read, then a dropped batch: resumed from commit
 
 TEST_CASE("drop folder: short reads store the same as whole ones") {
   Service service;
-  const fs::path folder = service.dir.path() / "in";
-  fs::create_directories(folder);
+  const fs::path folder = service.folder();
   const Input input = lines(0, 40);
   write_file(folder / "a.csv", input.text);
   FaultyFiles files;
   files.most_bytes = 7;  // lines arrive in pieces, split anywhere
-  DropFolder drop(service.spec(SourceSpec::Type::directory, folder), *service.ingestor, 0, files);
+  DropFolder drop = service.drop_folder(files);
   service.run(drop, 100);
   CHECK(service.source_errors.empty());
   check_stored_once(service, input);
@@ -72,8 +69,7 @@ TEST_CASE("drop folder: short reads store the same as whole ones") {
 
 TEST_CASE("drop folder: a file that vanishes before it is opened is passed over") {
   Service service;
-  const fs::path folder = service.dir.path() / "in";
-  fs::create_directories(folder);
+  const fs::path folder = service.folder();
   write_file(folder / "a.csv", lines(0, 10).text);
   const Input second = lines(100, 10);
   write_file(folder / "b.csv", second.text);
@@ -81,7 +77,7 @@ TEST_CASE("drop folder: a file that vanishes before it is opened is passed over"
   files.before_open = [&](const fs::path& path) {
     if (path.filename() == "a.csv") fs::remove(path);  // listed, then gone
   };
-  DropFolder drop(service.spec(SourceSpec::Type::directory, folder), *service.ingestor, 0, files);
+  DropFolder drop = service.drop_folder(files);
   service.run(drop, 4096);
   check_stored_once(service, second);
   CHECK(fs::exists(folder / "done" / "b.csv"));
@@ -89,8 +85,7 @@ TEST_CASE("drop folder: a file that vanishes before it is opened is passed over"
 
 TEST_CASE("drop folder: a file removed once read, before it is moved, does not stop the folder") {
   Service service;
-  const fs::path folder = service.dir.path() / "in";
-  fs::create_directories(folder);
+  const fs::path folder = service.folder();
   const Input first = lines(0, 10);
   const Input second = lines(100, 10);
   write_file(folder / "a.csv", first.text);
@@ -101,7 +96,7 @@ TEST_CASE("drop folder: a file removed once read, before it is moved, does not s
     if (n == 2) fs::remove(folder / "a.csv");
     return std::optional<Error>();
   };
-  DropFolder drop(service.spec(SourceSpec::Type::directory, folder), *service.ingestor, 0, files);
+  DropFolder drop = service.drop_folder(files);
   service.run(drop, 4096);
   check_stored_once(service, first + second);  // a.csv's lines were read before it went
   CHECK(fs::exists(folder / "done" / "b.csv"));
@@ -114,15 +109,15 @@ TEST_CASE("drop folder: a file removed once read, before it is moved, does not s
 
 TEST_CASE("tail: a failed read, then a dropped batch: resumed from the committed progress") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input input = lines(0, 80);
   write_file(path, input.text);
   FaultyFiles files;
   files.most_bytes = 100;  // 256 bytes a poll: reads of 100, 100 and 56 bytes
   // The second read of the second poll fails, after its first has fed lines (bytes 256-355
   // hold the reject of minute 10).
-  files.before_read = [](int n) { return n == 5 ? std::optional(read_error()) : std::nullopt; };
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor, files);
+  files.fail_read(5);
+  TailedFile tail = service.tail(files);
   service.fail_commit_drop(tail, 256);
 
   check_stored_once(service, input);
@@ -134,12 +129,12 @@ TEST_CASE("tail: a failed read, then a dropped batch: resumed from the committed
 
 TEST_CASE("tail: short reads store the same as whole ones") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input input = lines(0, 30);
   write_file(path, input.text);
   FaultyFiles files;
   files.most_bytes = 5;
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor, files);
+  TailedFile tail = service.tail(files);
   service.run(tail, 64);
   check_stored_once(service, input);
   CHECK(service.progress(key_of("tail", path))->byte_offset ==
@@ -148,7 +143,7 @@ TEST_CASE("tail: short reads store the same as whole ones") {
 
 TEST_CASE("tail: a file replaced between two reads is read to its end, then the new one") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input old_file = lines(0, 40);
   const Input new_file = lines(200, 25);
   write_file(path, old_file.text);
@@ -160,7 +155,7 @@ TEST_CASE("tail: a file replaced between two reads is read to its end, then the 
     }
     return std::optional<Error>();
   };
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor, files);
+  TailedFile tail = service.tail(files);
   service.run(tail, 128);
 
   check_stored_once(service, old_file + new_file);
@@ -172,7 +167,7 @@ TEST_CASE("tail: a file replaced between two reads is read to its end, then the 
 
 TEST_CASE("tail: truncated and rewritten longer between two reads of one poll") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input old_file = lines(0, 40);
   // The logger starts its file again: the first 10 lines as before, then others.
   const Input rewritten = lines(0, 10) + lines(300, 60, /*header=*/false);
@@ -184,7 +179,7 @@ TEST_CASE("tail: truncated and rewritten longer between two reads of one poll") 
     if (n == 3) write_file(path, rewritten.text);  // O_TRUNC, then the new text
     return std::optional<Error>();
   };
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor, files);
+  TailedFile tail = service.tail(files);
   service.run(tail, 4096);
 
   // The old file's lines read whole before the rewrite (its first 512 bytes) are stored, then
@@ -199,10 +194,10 @@ TEST_CASE("tail: truncated and rewritten longer between two reads of one poll") 
 
 TEST_CASE("tail: truncated between polls and written again: the repeats change nothing") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input first = lines(0, 30);
   write_file(path, first.text);
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor);
+  TailedFile tail = service.tail();
   service.run(tail, 4096);
   check_stored_once(service, first);
   const auto duplicates_before = service.ingestor->counts().duplicates;
@@ -220,7 +215,7 @@ TEST_CASE("tail: truncated between polls and written again: the repeats change n
 
 TEST_CASE("tail: a followed file that vanishes is read to its end; a new one is followed") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input old_file = lines(0, 40);
   write_file(path, old_file.text);
   FaultyFiles files;
@@ -228,7 +223,7 @@ TEST_CASE("tail: a followed file that vanishes is read to its end; a new one is 
     if (n == 2) fs::remove(path);  // unlinked while open: its data stays readable
     return std::optional<Error>();
   };
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor, files);
+  TailedFile tail = service.tail(files);
   service.run(tail, 256);
   check_stored_once(service, old_file);
 
@@ -241,7 +236,7 @@ TEST_CASE("tail: a followed file that vanishes is read to its end; a new one is 
 
 TEST_CASE("tail: a commit that fails drops the batch; the lines are read again, stored once") {
   Service service;
-  const fs::path path = service.dir.path() / "logger.csv";
+  const fs::path path = service.tailed();
   const Input input = lines(0, 120);
   write_file(path, input.text);
   // The second COMMIT fails: the first batches stored, the next dropped and re-read.
@@ -251,7 +246,7 @@ TEST_CASE("tail: a commit that fails drops the batch; the lines are read again, 
         if (sql.starts_with("COMMIT") && ++*commits == 2) return SQLITE_IOERR;
         return std::nullopt;
       });
-  TailedFile tail(service.spec(SourceSpec::Type::tail, path), *service.ingestor);
+  TailedFile tail = service.tail();
   service.run(tail, 512);
   CHECK(service.dropped_batches == 1);
   check_stored_once(service, input);

@@ -9,37 +9,15 @@
 #include <memory>
 #include <string>
 
-#include "../store/store_test_support.hpp"
-#include "stagewell/config.hpp"
-#include "stagewell/ingestor.hpp"
+#include "source_test_support.hpp"
 
 namespace stagewell {
 namespace {
 
-using test::TempDir;
 using Kind = LineOutcome::Kind;
 
-constexpr std::int64_t kNow = 1'778'738'400'000;  // 2026-05-14T06:00:00Z (Python datetime)
-
-struct Harness {
-  TempDir dir;
-  std::unique_ptr<Ingestor> ingestor;
+struct Harness : test::Service {
   std::int64_t number = 0;
-
-  Harness() {
-    const std::string text = "units: metric\ndatabase: " + dir.db().string() + R"(
-sites:
-  - id: g1
-    section: {shape: rectangular, width: 2.0, height: 1.5}
-    roughness: 0.014
-    slope: 0.001
-)";
-    auto config = parse_config(text, "test.yaml", dir.path());
-    REQUIRE(config.has_value());
-    auto opened = Ingestor::open(*config, IngestorOptions{}, [] { return kNow; });
-    REQUIRE_MESSAGE(opened.has_value(), opened.error().message);
-    ingestor = std::move(*opened);
-  }
 
   LineIntake intake() {
     auto made = LineIntake::create(SourceSpec{}, "test.csv", *ingestor);

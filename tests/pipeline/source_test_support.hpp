@@ -46,6 +46,14 @@ class FaultyFiles : public FileSystemWrapper {
   int reads = 0;
 
   Result<std::unique_ptr<ReadableFile>> open_read(const fs::path& path) override;
+
+  // The `n`th read fails (ErrorKind::io); every other read works.
+  void fail_read(int n) {
+    before_read = [n](int read) {
+      return read == n ? std::optional(Error{ErrorKind::io, "injected: cannot read"})
+                       : std::nullopt;
+    };
+  }
 };
 
 class FaultyFile final : public ReadableFile {
@@ -76,8 +84,6 @@ inline Result<std::unique_ptr<ReadableFile>> FaultyFiles::open_read(const fs::pa
   if (!file) return std::unexpected(file.error());
   return std::make_unique<FaultyFile>(*this, std::move(*file));
 }
-
-inline Error read_error() { return Error{ErrorKind::io, "injected: cannot read"}; }
 
 // ---- the input ---------------------------------------------------------------------------------
 
@@ -122,10 +128,16 @@ inline void write_file(const fs::path& path, std::string_view text) {
 
 // ---- the service, in miniature -----------------------------------------------------------------
 
-inline Config config_in(const TempDir& dir) {
-  const std::string text = "units: metric\ndatabase: " + dir.db().string() + R"(
-sites:
+// Two sites, g1 and g2: rectangular, 2 m wide, n 0.014, S 0.001 (as tests/e2e/tcp_support.py),
+// and the sources in `sources_yaml` (a `sources:` block), if any.
+inline Config config_in(const TempDir& dir, std::string_view sources_yaml = "") {
+  const std::string text =
+      "units: metric\ndatabase: " + dir.db().string() + "\n" + std::string(sources_yaml) + R"(sites:
   - id: g1
+    section: {shape: rectangular, width: 2.0, height: 1.5}
+    roughness: 0.014
+    slope: 0.001
+  - id: g2
     section: {shape: rectangular, width: 2.0, height: 1.5}
     roughness: 0.014
     slope: 0.001
@@ -135,18 +147,35 @@ sites:
   return std::move(*config);
 }
 
+// A temporary database, an Ingestor on it with a clock the test moves, and the service's way of
+// polling, committing and recovering a source.
 struct Service {
   TempDir dir;
-  Config config = config_in(dir);
-  std::shared_ptr<std::int64_t> now = std::make_shared<std::int64_t>(kStart);
+  Config config;
+  std::shared_ptr<std::int64_t> now;
   std::unique_ptr<Ingestor> ingestor;
   std::vector<Error> source_errors;  // what the service would log, per poll
   int dropped_batches = 0;
 
-  Service() {
+  explicit Service(std::string_view sources_yaml = "", std::int64_t start_ms = kStart)
+      : config(config_in(dir, sources_yaml)), now(std::make_shared<std::int64_t>(start_ms)) {
     auto opened = Ingestor::open(config, IngestorOptions{}, [now = now] { return *now; });
     REQUIRE_MESSAGE(opened.has_value(), opened.error().message);
     ingestor = std::move(*opened);
+  }
+
+  // A drop folder (created here) and a followed file, in the temporary directory.
+  fs::path folder() const {
+    const fs::path path = dir.path() / "in";
+    fs::create_directories(path);
+    return path;
+  }
+  fs::path tailed() const { return dir.path() / "logger.csv"; }
+  DropFolder drop_folder(FileSystem& files = posix_file_system()) {
+    return DropFolder(spec(SourceSpec::Type::directory, folder()), *ingestor, 0, files);
+  }
+  TailedFile tail(FileSystem& files = posix_file_system()) {
+    return TailedFile(spec(SourceSpec::Type::tail, tailed()), *ingestor, files);
   }
 
   SourceSpec spec(SourceSpec::Type type, const fs::path& path) const {

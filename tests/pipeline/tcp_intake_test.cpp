@@ -14,56 +14,29 @@
 #include <string_view>
 #include <vector>
 
-#include "../store/store_test_support.hpp"
-#include "stagewell/config.hpp"
-#include "stagewell/ingestor.hpp"
+#include "source_test_support.hpp"
 
 namespace stagewell {
 namespace {
-
-using test::TempDir;
 
 constexpr std::int64_t kNow = 1'778'738'400'000;  // 2026-05-14T06:00:00Z (Python datetime)
 constexpr std::string_view kSecret = "s3cret-for-the-test-only";
 
 // Three tcp sources: plain (lines up to 64 bytes, to test long lines cheaply), with a secret, and
-// with a fixed site. Sites: rectangular 2 m wide, n 0.014, S 0.001 (as tests/e2e/tcp_support.py).
-Config config_in(const TempDir& dir) {
-  const std::string text = "units: metric\ndatabase: " + dir.db().string() +
-                           "\nsources:\n"
-                           "  - type: tcp\n    listen: 127.0.0.1:7301\n    max_line_bytes: 64\n"
-                           "  - type: tcp\n    listen: 127.0.0.1:7302\n    secret: " +
-                           std::string(kSecret) +
-                           "\n"
-                           "  - type: tcp\n    listen: 127.0.0.1:7303\n    site: g1\n" +
-                           R"(sites:
-  - id: g1
-    section: {shape: rectangular, width: 2.0, height: 1.5}
-    roughness: 0.014
-    slope: 0.001
-  - id: g2
-    section: {shape: rectangular, width: 2.0, height: 1.5}
-    roughness: 0.014
-    slope: 0.001
-)";
-  auto config = parse_config(text, "test.yaml", dir.path());
-  REQUIRE_MESSAGE(config.has_value(), config.error().front().to_string());
-  return std::move(*config);
-}
+// with a fixed site.
+const std::string kSources =
+    "sources:\n"
+    "  - type: tcp\n    listen: 127.0.0.1:7301\n    max_line_bytes: 64\n"
+    "  - type: tcp\n    listen: 127.0.0.1:7302\n    secret: " +
+    std::string(kSecret) +
+    "\n"
+    "  - type: tcp\n    listen: 127.0.0.1:7303\n    site: g1\n";
 
 enum Source { kPlain = 0, kWithSecret = 1, kFixedSite = 2 };
 
 // A database, an Ingestor on it, and connections to one of its tcp sources.
-struct Harness {
-  TempDir dir;
-  Config config = config_in(dir);
-  std::unique_ptr<Ingestor> ingestor;
-
-  Harness() {
-    auto opened = Ingestor::open(config, IngestorOptions{}, [] { return kNow; });
-    REQUIRE_MESSAGE(opened.has_value(), opened.error().message);
-    ingestor = std::move(*opened);
-  }
+struct Harness : test::Service {
+  Harness() : Service(kSources, kNow) {}
 
   TcpIntake connect(Source source = kPlain) {
     auto intake = TcpIntake::create(config.sources.at(source), "tcp test", *ingestor);
@@ -95,6 +68,12 @@ struct Harness {
     return test::query_int(*raw, sql);
   }
   std::int64_t stored() { return count("SELECT count(*) FROM readings"); }
+  std::int64_t stored_at(std::string_view site, double stage) {
+    return count(
+        fmt::format("SELECT count(*) FROM readings r JOIN sites s USING (site_key) "
+                    "WHERE s.id = '{}' AND r.stage = {}",
+                    site, stage));
+  }
   std::int64_t rejects() { return count("SELECT count(*) FROM rejects"); }
 
   struct RejectRow {
@@ -232,8 +211,7 @@ TEST_CASE("a header names the columns in any order") {
   auto c = h.connect();
   CHECK(h.feed(c, "# columns\nstage,site,time\n0.452,g2,2026-05-01T06:00:00Z\n") == "");
   CHECK(h.commit(c) == "ok 3\n");
-  CHECK(h.count("SELECT count(*) FROM readings r JOIN sites s USING (site_key) "
-                "WHERE s.id = 'g2' AND r.stage = 0.452") == 1);
+  CHECK(h.stored_at("g2", 0.452) == 1);
 }
 
 TEST_CASE("without a header the source's columns apply, and the first line is a reading") {
@@ -247,8 +225,7 @@ TEST_CASE("without a header the source's columns apply, and the first line is a 
   auto fixed = h.connect(kFixedSite);  // site: g1 -> the columns are time, stage
   CHECK(h.feed(fixed, "2026-05-01T06:02:00Z,0.458\n") == "");
   CHECK(h.commit(fixed) == "ok 1\n");
-  CHECK(h.count("SELECT count(*) FROM readings r JOIN sites s USING (site_key) "
-                "WHERE s.id = 'g1' AND r.stage = 0.458") == 1);
+  CHECK(h.stored_at("g1", 0.458) == 1);
 }
 
 // ---- rejects, conflicts and repeats ------------------------------------------------------------
