@@ -422,6 +422,7 @@ TEST_CASE("a store failure while a line is taken fails the feed") {
   auto fed = c.feed("g1,2026-05-01T06:00:00Z,0.452\n", replies);
   REQUIRE_FALSE(fed.has_value());
   CHECK(fed.error().kind == ErrorKind::database);
+  CHECK(c.awaiting_commit());  // the line is not stored: the client must send it again
   CHECK(reply::store_failed() ==
         "closing the store failed; send again the lines after your last ok\n");
 }

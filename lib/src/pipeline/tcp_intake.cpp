@@ -160,6 +160,7 @@ void TcpIntake::on_line(const Line& raw_line) {
 
   auto taken = intake_.take(line);
   if (!taken) {
+    last_stored_line_ = line.number;  // it may be half in the batch, which is spoiled now
     status_ = std::unexpected(std::move(taken.error()));
     return;
   }
