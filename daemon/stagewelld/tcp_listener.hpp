@@ -1,5 +1,6 @@
 // The `type: tcp` sources of the service: one listener per source, each accepting clients on the
-// service's io_context and feeding their lines to the shared Ingestor (protocol: tcp_intake.hpp).
+// service's io_context and feeding their lines to the shared Ingestor (the protocol:
+// stagewell/tcp_intake.hpp).
 //
 // Acknowledgement: every connection numbers its lines; after each successful commit (the
 // Ingestor's commit observer) every connection is told how far it is stored. Lines that opened no

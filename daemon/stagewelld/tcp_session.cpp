@@ -119,7 +119,7 @@ void TcpSession::process() {
     fed = true;
     if (!status) {
       listener_->store_failed(status.error());
-      close_with(reply::closing("the store failed; send again the lines after your last ok"));
+      close_with(reply::store_failed());
       return;
     }
     if (intake_.refusal()) {
@@ -166,8 +166,8 @@ void TcpSession::on_commit(bool committed) {
         "{}: lines {} to {} were not stored (the batch was dropped); closing so that the "
         "client sends them again",
         peer_, intake_.acked() + 1, intake_.lines());
-    intake_.report_ack(pending_);
-    close_with(reply::closing("the store failed; send again the lines after your last ok"));
+    intake_.batch_dropped(pending_);  // the last `ok` and the closing line
+    close_with("");
   }
 }
 

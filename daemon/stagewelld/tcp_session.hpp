@@ -1,5 +1,5 @@
 // One client connection of a tcp source: the socket, its buffers and its timers around a
-// TcpIntake (the protocol).
+// TcpIntake (the protocol, in lib: stagewell/tcp_intake.hpp).
 //
 // Memory per connection is bounded: one read buffer (kReadBufferBytes), one unfinished line
 // (max_line_bytes) and the replies not yet taken by the client (max_reply_bytes; reading stops at
@@ -27,7 +27,7 @@
 #include <optional>
 #include <string>
 
-#include "tcp_intake.hpp"
+#include "stagewell/tcp_intake.hpp"
 
 namespace stagewell::service {
 
