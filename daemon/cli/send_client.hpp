@@ -1,11 +1,11 @@
 // `stagewell send`: streams readings to a `type: tcp` source and waits until each is stored.
 //
 // Lines go out as they are read (a file or stdin); the service acknowledges them in order (`ok n`,
-// tcp_intake.hpp). Unacknowledged lines are kept (at most kWindowLines) and, after a disconnect,
-// sent again on a new connection from the first unacknowledged one — harmless, since a repeat of a
-// stored reading is a no-op. The first non-comment line is also sent again first, in case it was
-// the header. Reconnection waits 0.25 s, 0.5 s, 1 s, ... up to 8 s, and gives up after `--tries`
-// attempts in a row that acknowledged nothing.
+// stagewell/tcp_intake.hpp). Unacknowledged lines are kept (at most kWindowLines) and, after a
+// disconnect, sent again on a new connection from the first unacknowledged one — harmless, since a
+// repeat of a stored reading is a no-op. The first non-comment line is also sent again first, in
+// case it was the header. Reconnection waits 0.25 s, 0.5 s, 1 s, ... up to 8 s, and gives up after
+// `--tries` attempts in a row that acknowledged nothing.
 //
 // One thread reads the input into a bounded queue (send_input.hpp); the Asio loop does all the
 // networking, here.

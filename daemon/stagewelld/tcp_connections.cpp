@@ -11,9 +11,6 @@ namespace {
 // the metrics show the lag of a tcp source like a file's), ms.
 constexpr std::int64_t kProgressEveryMs = 1000;
 
-constexpr std::string_view kStoreFailed =
-    "the store failed; send again the lines after your last ok";
-
 }  // namespace
 
 struct TcpConnections::Connection {
@@ -130,8 +127,8 @@ void TcpConnections::on_commit(bool committed) {
         "client sends them again",
         connection->link.peer, connection->intake.acked() + 1, connection->intake.lines());
     TcpReport out;
-    connection->intake.report_ack(out.replies);
-    out.closing = reply::closing(kStoreFailed);
+    connection->intake.batch_dropped(out.replies);  // the last `ok` and the closing line
+    out.closing = "";
     connection->closed = true;
     connection->link.deliver(std::move(out));
   }

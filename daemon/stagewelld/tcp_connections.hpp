@@ -18,7 +18,7 @@
 #include <string_view>
 
 #include "stagewell/ingestor.hpp"
-#include "tcp_intake.hpp"
+#include "stagewell/tcp_intake.hpp"
 #include "tcp_link.hpp"
 
 namespace stagewell::service {

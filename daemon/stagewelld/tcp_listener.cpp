@@ -7,7 +7,7 @@
 #include <boost/asio/write.hpp>
 #include <chrono>
 
-#include "tcp_intake.hpp"
+#include "stagewell/tcp_intake.hpp"
 #include "tcp_session.hpp"
 #include "writer.hpp"
 

@@ -5,7 +5,7 @@
 #include <boost/asio/post.hpp>
 #include <boost/asio/write.hpp>
 
-#include "tcp_intake.hpp"
+#include "stagewell/tcp_intake.hpp"
 #include "tcp_listener.hpp"
 #include "writer.hpp"
 

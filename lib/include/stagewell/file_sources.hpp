@@ -7,6 +7,9 @@
 // Progress (file identity and byte offset) goes into the same transaction as the readings it
 // covers, under the source key "<kind>:<absolute path>".
 //
+// Every file access goes through a FileSystem (file_system.hpp): the real one unless a test
+// passes another, which must outlive the source.
+//
 // Not thread-safe: each belongs to the thread that polls it.
 #pragma once
 
@@ -17,6 +20,7 @@
 #include <set>
 #include <string>
 
+#include "stagewell/file_system.hpp"
 #include "stagewell/ingestor.hpp"
 #include "stagewell/stream_reader.hpp"
 
@@ -25,35 +29,13 @@ namespace stagewell {
 // Bytes read from a file per read call.
 inline constexpr std::size_t kReadChunkBytes = 64 * 1024;
 
-// An open file descriptor with one owner.
-class FileHandle {
- public:
-  FileHandle() = default;
-  explicit FileHandle(int fd) : fd_(fd) {}
-  FileHandle(FileHandle&& other) noexcept : fd_(std::exchange(other.fd_, -1)) {}
-  FileHandle& operator=(FileHandle&& other) noexcept;
-  FileHandle(const FileHandle&) = delete;
-  FileHandle& operator=(const FileHandle&) = delete;
-  ~FileHandle();
-
-  static Result<FileHandle> open_read(const std::filesystem::path& path);
-  int fd() const { return fd_; }
-  explicit operator bool() const { return fd_ >= 0; }
-
- private:
-  int fd_ = -1;
-};
-
-// What identifies a file across renames: "device:inode".
-Result<std::string> file_identity(const FileHandle& file);
-Result<std::string> file_identity(const std::filesystem::path& path);
-
 // Reads one file from its stored progress to its end.
 class FileReader {
  public:
   static Result<std::unique_ptr<FileReader>> open(const std::filesystem::path& path,
                                                   const SourceSpec& spec, std::string source_key,
-                                                  Ingestor& ingestor);
+                                                  Ingestor& ingestor,
+                                                  FileSystem& files = posix_file_system());
   // Reads and processes up to `max_bytes`; true once the whole file is processed (the final
   // progress is then in the open batch: commit before acting on it).
   Result<bool> step(std::size_t max_bytes);
@@ -65,10 +47,12 @@ class FileReader {
 
  private:
   FileReader() = default;
+  // Stores how far the file is processed, in the open batch.
+  Result<void> save_progress();
   std::filesystem::path path_;
   std::string source_key_;
   std::string identity_;
-  FileHandle file_;
+  std::unique_ptr<ReadableFile> file_;
   std::int64_t size_ = 0;
   std::unique_ptr<StreamReader> reader_;
   Ingestor* ingestor_ = nullptr;
@@ -80,7 +64,8 @@ class FileReader {
 // `settle_ms` (a writer that does not rename).
 class DropFolder {
  public:
-  DropFolder(SourceSpec spec, Ingestor& ingestor, std::int64_t settle_ms = 2000);
+  DropFolder(SourceSpec spec, Ingestor& ingestor, std::int64_t settle_ms = 2000,
+             FileSystem& files = posix_file_system());
 
   // One poll: continues the file in hand or picks the next; returns true when more work is
   // waiting (poll again soon).
@@ -96,6 +81,7 @@ class DropFolder {
   SourceSpec spec_;
   Ingestor& ingestor_;
   std::int64_t settle_ms_;
+  FileSystem& files_;
   std::unique_ptr<FileReader> current_;
   std::set<std::string> unreadable_;  // files that failed to open, not retried until they change
   std::int64_t files_done_ = 0;
@@ -108,16 +94,17 @@ inline constexpr std::int64_t kRotatedQuietMs = 2000;
 // A file a logger keeps appending to.
 //
 // Truncation: when the file is shorter than what was read, or the last bytes read are no longer
-// where they were (the file was truncated and rewritten longer between two polls), it is read
-// again from the start. Rotation: when the path names another file, or none, the old file is
-// still read until it has been unchanged for kRotatedQuietMs, its last line counting even without
-// a newline; then the file at the path is read from its start. Restart: the stored progress names
-// the file (device:inode) and offset; if the path now names another file, a file with the stored
-// identity in the same directory (rotated while the service was stopped) is read to its end first.
-// Not noticed: a file truncated and rewritten to at least its old length while stopped.
+// where they were (the file was truncated and rewritten longer between two polls, or between two
+// reads of one poll), it is read again from the start. Rotation: when the path names another file,
+// or none, the old file is still read until it has been unchanged for kRotatedQuietMs, its last
+// line counting even without a newline; then the file at the path is read from its start. Restart:
+// the stored progress names the file (device:inode) and offset; if the path now names another file,
+// a file with the stored identity in the same directory (rotated while the service was stopped) is
+// read to its end first. Not noticed: a file truncated and rewritten to at least its old length
+// while stopped.
 class TailedFile {
  public:
-  TailedFile(SourceSpec spec, Ingestor& ingestor);
+  TailedFile(SourceSpec spec, Ingestor& ingestor, FileSystem& files = posix_file_system());
 
   // One poll: notices truncation and rotation, then reads up to `max_bytes` of new lines.
   // Returns true when more is waiting.
@@ -128,16 +115,24 @@ class TailedFile {
   // Opens the file at the path (or, when `resume` finds one, the rotated file the stored
   // progress belongs to) and skips what is already stored.
   Result<void> start(bool resume);
-  Result<void> open_at(FileHandle file, const std::filesystem::path& path, std::int64_t offset);
-  // True when the bytes before offset_ are not the ones read (truncated or rewritten).
+  Result<void> open_at(std::unique_ptr<ReadableFile> file, const std::filesystem::path& path,
+                       std::int64_t offset);
+  // True when the file is shorter than offset_ or last_bytes_moved() (truncated or rewritten).
   Result<bool> rewritten(std::int64_t size_bytes);
+  // True when the bytes before offset_ are not the ones read.
+  Result<bool> last_bytes_moved();
+  // The file was truncated or rewritten: it is read again from its start.
+  Result<void> read_again(std::int64_t size_bytes);
+  // Stores how far the file is processed, in the open batch.
+  Result<void> save_progress();
   // The rotated file is finished: its last line is processed and the path is followed anew.
   Result<void> finish_rotated();
 
   SourceSpec spec_;
   std::string source_key_;
   Ingestor& ingestor_;
-  FileHandle file_;
+  FileSystem& files_;
+  std::unique_ptr<ReadableFile> file_;
   std::filesystem::path file_path_;  // where file_ was opened (the path, or a rotated name)
   std::string identity_;
   std::unique_ptr<StreamReader> reader_;

@@ -53,6 +53,21 @@ struct IngestorOptions {
 // Milliseconds since the epoch; injectable so tests control "now" (the `future` check).
 using Clock = std::function<std::int64_t()>;
 
+// What became of a record given to Ingestor::reading().
+struct ReadingOutcome {
+  enum class Kind {
+    stored,     // a new reading, in the open batch
+    duplicate,  // its site, time and stage are stored already: nothing was done
+    conflict,   // its site and time are stored with another stage, which is kept: the line went
+                // to rejects as "conflict"
+    rejected,   // it cannot be stored (a stage too large to compute with): the line went to
+                // rejects as `reject_kind`
+  };
+  Kind kind = Kind::stored;
+  std::string_view reject_kind;  // conflict and rejected: the name counted ("conflict", ...)
+  std::string reason;            // conflict and rejected: a sentence for a person
+};
+
 // Where a record or a reject came from.
 struct SourcePosition {
   std::string_view source;  // the source's name: a file path, "tcp 127.0.0.1:50312"
@@ -71,8 +86,9 @@ class Ingestor {
   // Known site? (For the record parser.)
   bool has_site(std::string_view site_id) const;
 
-  // Converts, checks and stores one record.
-  Result<void> reading(const Record& record, const SourcePosition& at);
+  // Converts, checks and stores one record, and says what became of it. Fails only when the store
+  // fails (the batch is then spoiled: see commit()).
+  Result<ReadingOutcome> reading(const Record& record, const SourcePosition& at);
 
   // Keeps a line that could not be used. `kind` is a short name counted in the summary and
   // metrics (a RejectKind name, or "bad_header"); `reason` a sentence for a person.
@@ -111,10 +127,6 @@ class Ingestor {
   // Progress stored for a source (committed state).
   Result<std::optional<IngestProgress>> committed_progress(std::string_view source_key);
 
-  // The reason when the last reading() was a conflict (its site and time are stored with another
-  // stage, so it went to rejects as "conflict"); nullopt otherwise. For a socket source's reply.
-  const std::optional<std::string>& last_conflict() const { return last_conflict_; }
-
   const IngestCounts& counts() const { return counts_; }
   const Config& config() const;
   Store& store();
@@ -131,11 +143,11 @@ class Ingestor {
   Result<void> notice_other_writers();
   // A record whose (site, time) is stored with `stored_stage`: a no-op when the stage is the
   // same, a 'conflict' reject when not (stored values are never replaced).
-  Result<void> repeat(const Record& record, double stored_stage, const SourcePosition& at);
+  Result<ReadingOutcome> repeat(const Record& record, double stored_stage,
+                                const SourcePosition& at);
 
   std::unique_ptr<State> state_;
   IngestCounts counts_;
-  std::optional<std::string> last_conflict_;
 };
 
 }  // namespace stagewell

@@ -1,6 +1,7 @@
-// Reads one stream of CSV readings — a file from some offset, a tailed file, a socket — into an
-// Ingestor: bytes -> lines -> records or rejects. Holds at most one line of bytes (two for a line
-// over the limit: see consumed_bytes()).
+// Reads one file's stream of CSV readings — a file from some offset, a followed file — into an
+// Ingestor: bytes -> lines -> LineIntake (line_intake.hpp), keeping the byte offset that the
+// lines processed reach, for the source's progress. Holds at most one line of bytes (two for a
+// line over the limit: see consumed_bytes()).
 //
 // Not thread-safe: one per stream.
 #pragma once
@@ -12,8 +13,8 @@
 #include <string_view>
 
 #include "stagewell/ingestor.hpp"
+#include "stagewell/line_intake.hpp"
 #include "stagewell/line_splitter.hpp"
-#include "stagewell/records.hpp"
 
 namespace stagewell {
 
@@ -42,11 +43,10 @@ class StreamReader {
   // arrives — so that a restart never resumes inside a line nor repeats the reject of one.
   std::int64_t consumed_bytes() const { return consumed_bytes_; }
   std::int64_t lines() const { return lines_; }
-  const std::string& source_name() const { return source_name_; }
+  const std::string& source_name() const { return intake_.source_name(); }
 
  private:
-  StreamReader(std::string source_name, Ingestor& ingestor, RecordParser parser,
-               std::size_t max_line_bytes);
+  StreamReader(LineIntake intake, std::size_t max_line_bytes);
   void on_line(const Line& line);
   void process(const Line& line);
   // Counts the line ends in `chunk` (just fed or skipped) and moves consumed_bytes_ past the last.
@@ -59,9 +59,7 @@ class StreamReader {
     std::int64_t number = 0;
   };
 
-  std::string source_name_;
-  Ingestor& ingestor_;
-  RecordParser parser_;
+  LineIntake intake_;
   LineSplitter splitter_;
   std::int64_t fed_bytes_ = 0;       // fed or skipped
   std::int64_t consumed_bytes_ = 0;  // see consumed_bytes()

@@ -1,52 +1,26 @@
 #include "stagewell/file_sources.hpp"
 
-#include <fcntl.h>
 #include <fmt/format.h>
 #include <spdlog/spdlog.h>
-#include <sys/stat.h>
-#include <unistd.h>
 
 #include <algorithm>
-#include <cerrno>
-#include <cstring>
 #include <vector>
+
+#include "stagewell/timestamp.hpp"
 
 namespace stagewell {
 namespace {
 
 namespace fs = std::filesystem;
 
-// errno -> Error, in one place.
-std::unexpected<Error> os_error(std::string_view what, const fs::path& path) {
-  const int code = errno;
-  return fail(code == ENOENT ? ErrorKind::not_found : ErrorKind::io,
-              fmt::format("{} {}: {}", what, path.string(), std::strerror(code)));
-}
-
-std::string identity_of(const struct stat& status) {
-  return fmt::format("{}:{}", static_cast<unsigned long long>(status.st_dev),
-                     static_cast<unsigned long long>(status.st_ino));
-}
-
-// Reads up to `size` bytes at the current position, retrying on EINTR. 0 at end of file.
-Result<std::size_t> read_some(const FileHandle& file, char* buffer, std::size_t size,
-                              const fs::path& path) {
-  for (;;) {
-    const ssize_t n = ::read(file.fd(), buffer, size);
-    if (n >= 0) return static_cast<std::size_t>(n);
-    if (errno != EINTR) return os_error("cannot read", path);
-  }
-}
-
 // Feeds bytes [0, offset) of `file` to `reader` for its header and line count, leaving the file
 // positioned at `offset`.
-Result<void> skip_prefix(const FileHandle& file, std::int64_t offset, StreamReader& reader,
-                         const fs::path& path) {
+Result<void> skip_prefix(ReadableFile& file, std::int64_t offset, StreamReader& reader) {
   std::vector<char> buffer(kReadChunkBytes);
   std::int64_t left = offset;
   while (left > 0) {
     const auto want = static_cast<std::size_t>(std::min<std::int64_t>(left, buffer.size()));
-    auto n = read_some(file, buffer.data(), want, path);
+    auto n = file.read(buffer.data(), want);
     if (!n) return std::unexpected(n.error());
     if (*n == 0) break;
     reader.skip({buffer.data(), *n});
@@ -62,57 +36,29 @@ std::string absolute_key(std::string_view kind, const fs::path& path) {
                      (absolute.empty() ? path : absolute).lexically_normal().string());
 }
 
+Result<void> not_regular(const fs::path& path) {
+  return fail(ErrorKind::invalid_argument, fmt::format("{} is not a regular file", path.string()));
+}
+
 }  // namespace
-
-FileHandle& FileHandle::operator=(FileHandle&& other) noexcept {
-  if (this != &other) {
-    if (fd_ >= 0) ::close(fd_);
-    fd_ = std::exchange(other.fd_, -1);
-  }
-  return *this;
-}
-
-FileHandle::~FileHandle() {
-  if (fd_ >= 0) ::close(fd_);
-}
-
-Result<FileHandle> FileHandle::open_read(const fs::path& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) return os_error("cannot open", path);
-  return FileHandle(fd);
-}
-
-Result<std::string> file_identity(const FileHandle& file) {
-  struct stat status {};
-  if (::fstat(file.fd(), &status) != 0) return os_error("cannot stat", "(open file)");
-  return identity_of(status);
-}
-
-Result<std::string> file_identity(const fs::path& path) {
-  struct stat status {};
-  if (::stat(path.c_str(), &status) != 0) return os_error("cannot stat", path);
-  return identity_of(status);
-}
 
 // ---- FileReader -------------------------------------------------------------------------------
 
 Result<std::unique_ptr<FileReader>> FileReader::open(const fs::path& path, const SourceSpec& spec,
-                                                     std::string source_key, Ingestor& ingestor) {
+                                                     std::string source_key, Ingestor& ingestor,
+                                                     FileSystem& files) {
   std::unique_ptr<FileReader> out(new FileReader());
   out->path_ = path;
   out->source_key_ = std::move(source_key);
   out->ingestor_ = &ingestor;
-  auto file = FileHandle::open_read(path);
+  auto file = files.open_read(path);
   if (!file) return std::unexpected(file.error());
   out->file_ = std::move(*file);
-  struct stat status {};
-  if (::fstat(out->file_.fd(), &status) != 0) return os_error("cannot stat", path);
-  if (!S_ISREG(status.st_mode)) {
-    return fail(ErrorKind::invalid_argument,
-                fmt::format("{} is not a regular file", path.string()));
-  }
-  out->identity_ = identity_of(status);
-  out->size_ = status.st_size;
+  auto status = out->file_->status();
+  if (!status) return std::unexpected(status.error());
+  if (!status->regular) return std::unexpected(not_regular(path).error());
+  out->identity_ = std::move(status->identity);
+  out->size_ = status->size_bytes;
 
   auto reader = StreamReader::create(spec, path.string(), ingestor);
   if (!reader) return std::unexpected(reader.error());
@@ -125,7 +71,7 @@ Result<std::unique_ptr<FileReader>> FileReader::open(const fs::path& path, const
       (*stored)->byte_offset <= out->size_) {
     offset = (*stored)->byte_offset;
   }
-  if (auto skipped = skip_prefix(out->file_, offset, *out->reader_, path); !skipped) {
+  if (auto skipped = skip_prefix(*out->file_, offset, *out->reader_); !skipped) {
     return std::unexpected(skipped.error());
   }
   return out;
@@ -137,8 +83,15 @@ Result<bool> FileReader::step(std::size_t max_bytes) {
   std::size_t done = 0;
   bool at_end = false;
   while (done < max_bytes) {
-    auto n = read_some(file_, buffer.data(), std::min(buffer.size(), max_bytes - done), path_);
-    if (!n) return std::unexpected(n.error());
+    auto n = file_->read(buffer.data(), std::min(buffer.size(), max_bytes - done));
+    if (!n) {
+      // What was fed before the failed read is in the batch: its progress goes with it, so that
+      // a restart does not read it again (its rejects would be kept twice).
+      if (done > 0) {
+        if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
+      }
+      return std::unexpected(n.error());
+    }
     if (*n == 0) {
       at_end = true;
       break;
@@ -150,16 +103,20 @@ Result<bool> FileReader::step(std::size_t max_bytes) {
     if (auto last = reader_->finish(); !last) return std::unexpected(last.error());
     finished_ = true;
   }
-  auto saved = ingestor_->record_progress(
-      source_key_, {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
-  if (!saved) return std::unexpected(saved.error());
+  if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
   return finished_;
+}
+
+Result<void> FileReader::save_progress() {
+  return ingestor_->record_progress(source_key_,
+                                    {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
 }
 
 // ---- DropFolder -------------------------------------------------------------------------------
 
-DropFolder::DropFolder(SourceSpec spec, Ingestor& ingestor, std::int64_t settle_ms)
-    : spec_(std::move(spec)), ingestor_(ingestor), settle_ms_(settle_ms) {}
+DropFolder::DropFolder(SourceSpec spec, Ingestor& ingestor, std::int64_t settle_ms,
+                       FileSystem& files)
+    : spec_(std::move(spec)), ingestor_(ingestor), settle_ms_(settle_ms), files_(files) {}
 
 void DropFolder::reset() { current_.reset(); }
 
@@ -169,23 +126,26 @@ Result<void> DropFolder::finish_current() {
   if (auto committed = ingestor_.commit(); !committed) return committed;
   const fs::path from = current_->path();
   const fs::path done_dir = spec_.path / "done";
-  std::error_code error;
-  fs::create_directories(done_dir, error);
-  if (error) {
-    return fail(ErrorKind::io,
-                fmt::format("cannot create {}: {}", done_dir.string(), error.message()));
-  }
+  if (auto made = files_.create_directories(done_dir); !made) return made;
   fs::path to = done_dir / from.filename();
-  for (int i = 1; fs::exists(to); ++i) {
+  for (int i = 1;; ++i) {
+    auto taken = files_.status(to);
+    if (!taken && taken.error().kind == ErrorKind::not_found) break;
+    if (!taken) return std::unexpected(taken.error());
     to = done_dir / fmt::format("{}.{}", from.filename().string(), i);
   }
-  fs::rename(from, to, error);
-  if (error) {
-    return fail(ErrorKind::io, fmt::format("cannot move {} to {}: {}", from.string(), to.string(),
-                                           error.message()));
+  if (auto moved = files_.rename(from, to); !moved) {
+    // Removed by someone else once read: nothing is left to move, and the folder goes on (its
+    // lines are stored). Any other failure is retried at the next poll.
+    auto there = files_.status(from);
+    if (there || there.error().kind != ErrorKind::not_found) return moved;
+    spdlog::warn("{}: read to the end ({} lines), then removed before it could be moved",
+                 from.string(), current_->lines());
+  } else {
+    spdlog::info("{}: read to the end ({} lines), moved to {}", from.string(), current_->lines(),
+                 to.string());
+    ++files_done_;
   }
-  spdlog::info("{}: read to the end ({} lines), moved to {}", from.string(), current_->lines(),
-               to.string());
   // The stored progress named the file by device and inode. Once the file in done/ is deleted,
   // its inode may be given to a new file dropped under the same name, which must not then be
   // taken as already read: forget it (committed with the next batch; until then the file in
@@ -196,7 +156,6 @@ Result<void> DropFolder::finish_current() {
     return forgot;
   }
   current_.reset();
-  ++files_done_;
   return {};
 }
 
@@ -210,37 +169,31 @@ Result<bool> DropFolder::poll(std::size_t max_bytes) {
     return true;
   }
 
-  std::error_code error;
-  std::vector<fs::path> candidates;
-  const auto settle_before =
-      fs::file_time_type::clock::now() - std::chrono::milliseconds(settle_ms_);
-  for (const auto& entry : fs::directory_iterator(spec_.path, error)) {
-    const auto file_name = entry.path().filename().string();
+  auto names = files_.list(spec_.path);
+  if (!names) {
+    return fail(ErrorKind::io, fmt::format("cannot list drop folder {}: {}", spec_.path.string(),
+                                           names.error().message));
+  }
+  // A file, and its modification time: a file that fails to open is not retried until it changes.
+  std::vector<std::pair<fs::path, std::int64_t>> candidates;
+  const std::int64_t settle_before_ms = system_now_ms() - settle_ms_;
+  for (const auto& file_name : *names) {
     if (file_name.empty() || file_name.front() == '.') continue;
     if (file_name.ends_with(".tmp") || file_name.ends_with(".part")) continue;
-    std::error_code entry_error;
-    if (!entry.is_regular_file(entry_error)) continue;
-    const auto modified = entry.last_write_time(entry_error);
-    if (entry_error || modified > settle_before) continue;
-    const auto identity =
-        fmt::format("{}@{}", entry.path().string(), modified.time_since_epoch().count());
-    if (unreadable_.count(identity)) continue;
-    candidates.push_back(entry.path());
-  }
-  if (error) {
-    return fail(ErrorKind::io, fmt::format("cannot list drop folder {}: {}", spec_.path.string(),
-                                           error.message()));
+    const fs::path path = spec_.path / file_name;
+    auto status = files_.status(path);
+    if (!status || !status->regular || status->modified_ms > settle_before_ms) continue;
+    if (unreadable_.count(fmt::format("{}@{}", path.string(), status->modified_ms))) continue;
+    candidates.emplace_back(path, status->modified_ms);
   }
   if (candidates.empty()) return false;
   std::sort(candidates.begin(), candidates.end());
-  const auto& next = candidates.front();
-  auto reader = FileReader::open(next, spec_, absolute_key("folder", next), ingestor_);
+  const auto& [next, modified_ms] = candidates.front();
+  auto reader = FileReader::open(next, spec_, absolute_key("folder", next), ingestor_, files_);
   if (!reader) {
     if (reader.error().kind == ErrorKind::database) return std::unexpected(reader.error());
     spdlog::warn("{}; left in place and not retried until it changes", reader.error().message);
-    std::error_code ignored;
-    unreadable_.insert(fmt::format("{}@{}", next.string(),
-                                   fs::last_write_time(next, ignored).time_since_epoch().count()));
+    unreadable_.insert(fmt::format("{}@{}", next.string(), modified_ms));
     return true;
   }
   spdlog::info("{}: reading ({} bytes)", next.string(), (*reader)->size_bytes());
@@ -265,40 +218,41 @@ void keep_last_bytes(std::string& kept, std::string_view chunk) {
 }
 
 // Reads up to `size` bytes at `offset` without moving the file position; fewer at the end.
-Result<std::string> read_at(const FileHandle& file, std::int64_t offset, std::size_t size,
-                            const fs::path& path) {
+Result<std::string> read_at(ReadableFile& file, std::int64_t offset, std::size_t size) {
   std::string out(size, '\0');
   std::size_t got = 0;
   while (got < size) {
-    const ssize_t n = ::pread(file.fd(), out.data() + got, size - got,
-                              static_cast<off_t>(offset + static_cast<std::int64_t>(got)));
-    if (n < 0 && errno == EINTR) continue;
-    if (n < 0) return os_error("cannot read", path);
-    if (n == 0) break;
-    got += static_cast<std::size_t>(n);
+    auto n = file.read_at(offset + static_cast<std::int64_t>(got), out.data() + got, size - got);
+    if (!n) return std::unexpected(n.error());
+    if (*n == 0) break;
+    got += *n;
   }
   out.resize(got);
   return out;
 }
 
 // A regular file in `directory` whose identity (device:inode) is `identity`.
-std::optional<fs::path> find_by_identity(const fs::path& directory, std::string_view identity) {
-  std::error_code error;
-  for (fs::directory_iterator it(directory, error), end; !error && it != end; it.increment(error)) {
-    struct stat status {};
-    if (::stat(it->path().c_str(), &status) != 0 || !S_ISREG(status.st_mode)) continue;
-    if (identity_of(status) == identity) return it->path();
+std::optional<fs::path> find_by_identity(FileSystem& files, const fs::path& directory,
+                                         std::string_view identity) {
+  auto names = files.list(directory);
+  if (!names) return std::nullopt;
+  for (const auto& name : *names) {
+    auto status = files.status(directory / name);
+    if (status && status->regular && status->identity == identity) return directory / name;
   }
   return std::nullopt;
 }
 
 }  // namespace
 
-TailedFile::TailedFile(SourceSpec spec, Ingestor& ingestor)
-    : spec_(std::move(spec)), source_key_(absolute_key("tail", spec_.path)), ingestor_(ingestor) {}
+TailedFile::TailedFile(SourceSpec spec, Ingestor& ingestor, FileSystem& files)
+    : spec_(std::move(spec)),
+      source_key_(absolute_key("tail", spec_.path)),
+      ingestor_(ingestor),
+      files_(files) {}
 
 void TailedFile::reset() {
-  file_ = FileHandle();
+  file_.reset();
   file_path_.clear();
   identity_.clear();
   reader_.reset();
@@ -308,18 +262,19 @@ void TailedFile::reset() {
   rotated_searched_ = false;
 }
 
-Result<void> TailedFile::open_at(FileHandle file, const fs::path& path, std::int64_t offset) {
+Result<void> TailedFile::open_at(std::unique_ptr<ReadableFile> file, const fs::path& path,
+                                 std::int64_t offset) {
   auto reader = StreamReader::create(spec_, path.string(), ingestor_);
   if (!reader) return std::unexpected(reader.error());
-  if (auto skipped = skip_prefix(file, offset, **reader, path); !skipped) return skipped;
-  auto identity = file_identity(file);
-  if (!identity) return std::unexpected(identity.error());
+  if (auto skipped = skip_prefix(*file, offset, **reader); !skipped) return skipped;
+  auto status = file->status();
+  if (!status) return std::unexpected(status.error());
   const auto kept = std::min<std::int64_t>(offset, kLastBytesKept);
-  auto last = read_at(file, offset - kept, static_cast<std::size_t>(kept), path);
+  auto last = read_at(*file, offset - kept, static_cast<std::size_t>(kept));
   if (!last) return std::unexpected(last.error());
   file_ = std::move(file);
   file_path_ = path;
-  identity_ = std::move(*identity);
+  identity_ = std::move(status->identity);
   reader_ = std::move(*reader);
   offset_ = offset;
   last_bytes_ = std::move(*last);
@@ -333,18 +288,16 @@ Result<void> TailedFile::start(bool resume) {
     if (!progress) return std::unexpected(progress.error());
     stored = *progress;
   }
-  auto file = FileHandle::open_read(spec_.path);
+  auto file = files_.open_read(spec_.path);
   if (!file && file.error().kind != ErrorKind::not_found) return std::unexpected(file.error());
-  struct stat status {};
-  std::string at_path;  // identity of the file at the path; empty when there is none
+  FileStatus status;  // of the file at the path; its identity is empty when there is none
   if (file) {
-    if (::fstat(file->fd(), &status) != 0) return os_error("cannot stat", spec_.path);
-    if (!S_ISREG(status.st_mode)) {
-      return fail(ErrorKind::invalid_argument,
-                  fmt::format("{} is not a regular file", spec_.path.string()));
-    }
-    at_path = identity_of(status);
+    auto opened = (*file)->status();
+    if (!opened) return std::unexpected(opened.error());
+    if (!opened->regular) return not_regular(spec_.path);
+    status = std::move(*opened);
   }
+  const std::string& at_path = status.identity;
 
   if (stored && !stored->file_identity.empty() && stored->file_identity != at_path &&
       !rotated_searched_) {
@@ -352,11 +305,10 @@ Result<void> TailedFile::start(bool resume) {
     // batch failed): if it is still beside the path, read the rest of it first. Searched once
     // per start: while the path is missing, start() runs at every poll.
     rotated_searched_ = true;
-    if (auto rotated = find_by_identity(spec_.path.parent_path(), stored->file_identity)) {
-      auto old = FileHandle::open_read(*rotated);
-      struct stat old_status {};
-      if (old && ::fstat(old->fd(), &old_status) == 0 &&
-          stored->byte_offset <= old_status.st_size) {
+    if (auto rotated = find_by_identity(files_, spec_.path.parent_path(), stored->file_identity)) {
+      auto old = files_.open_read(*rotated);
+      auto old_status = old ? (*old)->status() : Result<FileStatus>(std::unexpected(old.error()));
+      if (old_status && stored->byte_offset <= old_status->size_bytes) {
         if (auto opened = open_at(std::move(*old), *rotated, stored->byte_offset); !opened) {
           return opened;
         }
@@ -375,7 +327,7 @@ Result<void> TailedFile::start(bool resume) {
   }
   missing_logged_ = false;
   std::int64_t offset = 0;
-  if (stored && stored->file_identity == at_path && stored->byte_offset <= status.st_size) {
+  if (stored && stored->file_identity == at_path && stored->byte_offset <= status.size_bytes) {
     offset = stored->byte_offset;
   }
   if (auto opened = open_at(std::move(*file), spec_.path, offset); !opened) return opened;
@@ -385,9 +337,13 @@ Result<void> TailedFile::start(bool resume) {
 
 Result<bool> TailedFile::rewritten(std::int64_t size_bytes) {
   if (size_bytes < offset_) return true;
+  return last_bytes_moved();
+}
+
+Result<bool> TailedFile::last_bytes_moved() {
   if (last_bytes_.empty()) return false;
   const auto kept = static_cast<std::int64_t>(last_bytes_.size());
-  auto now = read_at(file_, offset_ - kept, last_bytes_.size(), file_path_);
+  auto now = read_at(*file_, offset_ - kept, last_bytes_.size());
   if (!now) return std::unexpected(now.error());
   return *now != last_bytes_;
 }
@@ -405,23 +361,33 @@ Result<void> TailedFile::finish_rotated() {
   return {};
 }
 
+Result<void> TailedFile::save_progress() {
+  return ingestor_.record_progress(source_key_,
+                                   {identity_, reader_->consumed_bytes(), ingestor_.now_ms()});
+}
+
+Result<void> TailedFile::read_again(std::int64_t size_bytes) {
+  spdlog::warn(
+      "{}: truncated or rewritten ({} bytes now, {} were read); reading it again from the "
+      "start",
+      spec_.path.string(), size_bytes, offset_);
+  reset();
+  return start(/*resume=*/false);
+}
+
 Result<bool> TailedFile::poll(std::size_t max_bytes) {
   if (!file_) {
     if (auto started = start(/*resume=*/true); !started) return std::unexpected(started.error());
     if (!file_) return false;
   }
-  struct stat status {};
-  if (::fstat(file_.fd(), &status) != 0) return os_error("cannot stat", file_path_);
   if (!rotated_quiet_since_ms_) {
-    auto changed = rewritten(status.st_size);
+    auto status = file_->status();
+    if (!status) return std::unexpected(status.error());
+    auto changed = rewritten(status->size_bytes);
     if (!changed) return std::unexpected(changed.error());
     if (*changed) {
-      spdlog::warn(
-          "{}: truncated or rewritten ({} bytes now, {} were read); reading it again "
-          "from the start",
-          spec_.path.string(), static_cast<std::int64_t>(status.st_size), offset_);
-      reset();
-      if (auto started = start(/*resume=*/false); !started) return std::unexpected(started.error());
+      if (auto again = read_again(status->size_bytes); !again)
+        return std::unexpected(again.error());
       if (!file_) return false;
     }
   }
@@ -430,11 +396,37 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
   std::size_t done = 0;
   bool at_end = false;
   while (done < max_bytes) {
-    auto n = read_some(file_, buffer.data(), std::min(buffer.size(), max_bytes - done), file_path_);
-    if (!n) return std::unexpected(n.error());
+    auto n = file_->read(buffer.data(), std::min(buffer.size(), max_bytes - done));
+    if (!n) {
+      // What was fed before the failed read is in the batch: its progress goes with it, so that
+      // a restart does not read it again (its rejects would be kept twice).
+      if (done > 0) {
+        if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
+      }
+      return std::unexpected(n.error());
+    }
     if (*n == 0) {
       at_end = true;
       break;
+    }
+    // The bytes read follow those read before only if those are still in place: a file truncated
+    // and rewritten between two reads would give a line made of pieces of both, and the new
+    // file's lines before this offset would never be read. Checked after the read, so that a
+    // rewrite at any moment before it is seen.
+    if (!rotated_quiet_since_ms_) {
+      auto changed = last_bytes_moved();
+      if (!changed) return std::unexpected(changed.error());
+      if (*changed) {
+        if (done > 0) {
+          if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
+        }
+        auto size = file_->status();
+        if (!size) return std::unexpected(size.error());
+        if (auto again = read_again(size->size_bytes); !again) {
+          return std::unexpected(again.error());
+        }
+        return true;  // the new file waits
+      }
     }
     if (auto fed = reader_->feed({buffer.data(), *n}); !fed) return std::unexpected(fed.error());
     keep_last_bytes(last_bytes_, {buffer.data(), *n});
@@ -442,15 +434,13 @@ Result<bool> TailedFile::poll(std::size_t max_bytes) {
     offset_ += static_cast<std::int64_t>(*n);
   }
   if (done > 0) {
-    auto saved = ingestor_.record_progress(
-        source_key_, {identity_, reader_->consumed_bytes(), ingestor_.now_ms()});
-    if (!saved) return std::unexpected(saved.error());
+    if (auto saved = save_progress(); !saved) return std::unexpected(saved.error());
   }
   if (!at_end) return true;
 
   // At the end of what we have: does the path still name this file?
-  auto now_at_path = file_identity(spec_.path);
-  if (now_at_path && *now_at_path == identity_) {
+  auto now_at_path = files_.status(spec_.path);
+  if (now_at_path && now_at_path->identity == identity_) {
     rotated_quiet_since_ms_.reset();  // (renamed back)
     return false;
   }

@@ -224,10 +224,9 @@ Result<WriteBatch*> Ingestor::batch() {
   return &*state_->batch;
 }
 
-Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
-  last_conflict_.reset();
+Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosition& at) {
   if (!state_->batch) {  // between batches: has another process written readings meanwhile?
-    if (auto noticed = notice_other_writers(); !noticed) return noticed;
+    if (auto noticed = notice_other_writers(); !noticed) return std::unexpected(noticed.error());
   }
   const auto found = state_->sites.find(record.site);
   if (found == state_->sites.end()) {
@@ -251,10 +250,13 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
   // it is rejected before it reaches the checks. Only a reading inside the site's stage range gets
   // a discharge, and below the section's top the rating's discharges are finite.
   if (site.history->unusable(record.time_ms, record.stage)) {
-    return reject(
-        "non_finite_stage",
-        fmt::format("stage {} gives a depth or discharge too large to be a number", record.stage),
-        at);
+    ReadingOutcome rejected{
+        ReadingOutcome::Kind::rejected, "non_finite_stage",
+        fmt::format("stage {} gives a depth or discharge too large to be a number", record.stage)};
+    if (auto kept = reject(rejected.reject_kind, rejected.reason, at); !kept) {
+      return std::unexpected(kept.error());
+    }
+    return rejected;
   }
 
   // The checks in force at the reading's time (they change only at a change of the history).
@@ -264,7 +266,7 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
     site.checker = SiteChecker(site.checks);
     if (auto seeded = seed_checker(state_->store, site.key, site.checker, site.newest_ms);
         !seeded) {
-      return seeded;
+      return std::unexpected(seeded.error());
     }
   }
   const CheckResult checked = site.checker.check(record.time_ms, record.stage, state_->clock());
@@ -284,6 +286,7 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
   auto inserted = (*batch)->insert(out);
   if (!inserted) return std::unexpected(inserted.error());
   auto& pending = state_->pending;
+  ReadingOutcome outcome;
   switch (inserted->outcome) {
     case InsertOutcome::stored:
       ++pending.stored;
@@ -300,17 +303,20 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
                              events);
         for (const auto& event : events) {
           if (auto kept = alarms::record_event((*batch)->connection(), site.key, event); !kept) {
-            return kept;
+            return std::unexpected(kept.error());
           }
           state_->alarm_log.emplace_back(&site, event);
         }
       }
       break;
     case InsertOutcome::duplicate:
-    case InsertOutcome::conflict:
+    case InsertOutcome::conflict: {
       // Settled before the checks above; reached only if newest_ms missed a stored reading.
-      if (auto kept = repeat(record, inserted->stored_stage.value_or(0.0), at); !kept) return kept;
+      auto repeated = repeat(record, inserted->stored_stage.value_or(0.0), at);
+      if (!repeated) return repeated;
+      outcome = std::move(*repeated);
       break;
+    }
   }
   for (const auto& earlier : checked.earlier) {
     auto added = (*batch)->add_flags(site.key, earlier.time_ms, earlier.flags);
@@ -320,28 +326,30 @@ Result<void> Ingestor::reading(const Record& record, const SourcePosition& at) {
       if (state_->daily) state_->daily->flagged(site.key, earlier.time_ms, earlier.flags);
     }
   }
-  return {};
+  return outcome;
 }
 
-Result<void> Ingestor::repeat(const Record& record, double stored_stage, const SourcePosition& at) {
+Result<ReadingOutcome> Ingestor::repeat(const Record& record, double stored_stage,
+                                        const SourcePosition& at) {
   auto& pending = state_->pending;
   // Exact comparison: the same text parses to the same double, and SQLite keeps REAL exactly.
   if (stored_stage == record.stage) {
     ++pending.duplicates;  // a re-read line: nothing to do
-    return {};
+    return ReadingOutcome{ReadingOutcome::Kind::duplicate, {}, {}};
   }
   auto batch = this->batch();
   if (!batch) return std::unexpected(batch.error());
-  const std::string reason = fmt::format(
-      "conflict: {} at this time is already stored with stage {}; the stored value is kept",
-      record.site, stored_stage);
+  ReadingOutcome conflict{
+      ReadingOutcome::Kind::conflict, "conflict",
+      fmt::format(
+          "conflict: {} at this time is already stored with stage {}; the stored value is kept",
+          record.site, stored_stage)};
   const std::string position = fmt::format("line {}", at.line);
-  auto kept = (*batch)->add_reject({at.source, position, at.raw, reason, state_->clock()});
+  auto kept = (*batch)->add_reject({at.source, position, at.raw, conflict.reason, state_->clock()});
   if (!kept) return std::unexpected(kept.error());
   ++pending.rejected;
   ++pending.rejected_by_reason["conflict"];
-  last_conflict_ = reason;
-  return {};
+  return conflict;
 }
 
 Result<void> Ingestor::reject(std::string_view kind, std::string_view reason,

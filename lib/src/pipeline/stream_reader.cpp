@@ -3,7 +3,6 @@
 #include <fmt/format.h>
 
 #include <algorithm>
-#include <variant>
 
 namespace stagewell {
 
@@ -11,19 +10,13 @@ Result<std::unique_ptr<StreamReader>> StreamReader::create(const SourceSpec& spe
                                                            std::string source_name,
                                                            Ingestor& ingestor,
                                                            std::size_t max_line_bytes) {
-  auto parser = RecordParser::create(
-      spec, [&ingestor](std::string_view site) { return ingestor.has_site(site); });
-  if (!parser) return std::unexpected(parser.error());
-  return std::unique_ptr<StreamReader>(
-      new StreamReader(std::move(source_name), ingestor, std::move(*parser), max_line_bytes));
+  auto intake = LineIntake::create(spec, std::move(source_name), ingestor);
+  if (!intake) return std::unexpected(intake.error());
+  return std::unique_ptr<StreamReader>(new StreamReader(std::move(*intake), max_line_bytes));
 }
 
-StreamReader::StreamReader(std::string source_name, Ingestor& ingestor, RecordParser parser,
-                           std::size_t max_line_bytes)
-    : source_name_(std::move(source_name)),
-      ingestor_(ingestor),
-      parser_(std::move(parser)),
-      splitter_(max_line_bytes) {}
+StreamReader::StreamReader(LineIntake intake, std::size_t max_line_bytes)
+    : intake_(std::move(intake)), splitter_(max_line_bytes) {}
 
 Result<void> StreamReader::feed(std::string_view chunk) {
   if (chunk.empty()) return status_;
@@ -75,7 +68,7 @@ void StreamReader::on_line(const Line& line) {
   if (held_ && line.number > held_->number) release_held();  // a later line: the held one ended
   ++lines_;
   if (!status_) return;  // the batch is spoiled: nothing more can be stored until a reset
-  if (skipping_ && parser_.columns()) return;  // already past the header: just count
+  if (skipping_ && intake_.has_header()) return;  // already past the header: just count
   if (line.too_long && !skipping_) {
     // Reported as soon as it is known to be too long, which is before its end has arrived: its
     // reject waits for the end, so that it is stored with the progress past the whole line.
@@ -87,17 +80,13 @@ void StreamReader::on_line(const Line& line) {
 
 void StreamReader::process(const Line& line) {
   if (!status_) return;
-  const ParsedLine parsed = parser_.parse_line(line);
-  if (skipping_) return;
-  const SourcePosition at{source_name_, line.number, line.text};
-  if (const auto* record = std::get_if<Record>(&parsed)) {
-    status_ = ingestor_.reading(*record, at);
-  } else if (const auto* reject = std::get_if<LineReject>(&parsed)) {
-    status_ = ingestor_.reject(name(reject->kind), reject->reason, at);
-  } else if (const auto* error = std::get_if<Error>(&parsed)) {
-    // No usable header: the stream cannot be read, but every line is kept so nothing is lost.
-    status_ = ingestor_.reject("bad_header", error->message, at);
+  if (skipping_) {
+    intake_.skip(line);
+    return;
   }
+  // What became of the line matters to a socket's replies, not to a file's progress: only a
+  // failure of the store does.
+  if (auto taken = intake_.take(line); !taken) status_ = std::unexpected(std::move(taken.error()));
 }
 
 }  // namespace stagewell

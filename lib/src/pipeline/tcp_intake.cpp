@@ -1,10 +1,8 @@
-#include "tcp_intake.hpp"
+#include "stagewell/tcp_intake.hpp"
 
 #include <fmt/format.h>
 
-#include <variant>
-
-namespace stagewell::service {
+namespace stagewell {
 namespace {
 
 constexpr std::string_view kByteOrderMark = "\xEF\xBB\xBF";
@@ -55,6 +53,9 @@ std::string refused(std::string_view what, std::string_view reason) {
 std::string closing(std::string_view reason) {
   return fmt::format("closing {}\n", one_line(reason));
 }
+std::string store_failed() {
+  return closing("the store failed; send again the lines after your last ok");
+}
 }  // namespace reply
 
 bool same_secret(std::string_view given, std::string_view secret) {
@@ -70,20 +71,16 @@ bool same_secret(std::string_view given, std::string_view secret) {
 
 Result<TcpIntake> TcpIntake::create(const SourceSpec& spec, std::string source_name,
                                     Ingestor& ingestor) {
-  auto parser = RecordParser::create(
-      spec, [&ingestor](std::string_view site) { return ingestor.has_site(site); });
-  if (!parser) return std::unexpected(parser.error());
-  return TcpIntake(spec, std::move(source_name), ingestor, std::move(*parser));
+  auto intake = LineIntake::create(spec, std::move(source_name), ingestor);
+  if (!intake) return std::unexpected(intake.error());
+  return TcpIntake(spec, std::move(*intake));
 }
 
-TcpIntake::TcpIntake(const SourceSpec& spec, std::string source_name, Ingestor& ingestor,
-                     RecordParser parser)
+TcpIntake::TcpIntake(const SourceSpec& spec, LineIntake intake)
     : secret_(spec.tcp.secret),
       columns_(spec.columns),
       need_site_(!spec.site.has_value()),
-      source_name_(std::move(source_name)),
-      ingestor_(&ingestor),
-      parser_(std::move(parser)),
+      intake_(std::move(intake)),
       splitter_(spec.tcp.max_line_bytes) {
   if (need_site_) default_header_ = quoted_field(columns_.site) + ",";
   default_header_ += quoted_field(columns_.time) + "," + quoted_field(columns_.stage);
@@ -104,6 +101,14 @@ Result<void> TcpIntake::finish(std::string& replies) {
 }
 
 void TcpIntake::committed() { acked_ = number_; }
+
+bool TcpIntake::batch_dropped(std::string& replies) {
+  if (!awaiting_commit()) return false;
+  report_ack(replies);
+  replies += reply::store_failed();
+  dropped_ = true;
+  return true;
+}
 
 void TcpIntake::report_ack(std::string& replies) {
   if (acked_ <= reported_ || refusal_) return;
@@ -143,37 +148,30 @@ void TcpIntake::choose_columns(const Line& line) {
   if (content.empty() || content.front() == '#') return;  // skipped; the next line decides
   if (!line.too_long && map_header(text, columns_, need_site_)) return;  // a header: parsed below
   // Not a header: the source's columns in their default order, and this line is a reading.
-  parser_.parse_line(Line{default_header_, 0, false});
+  intake_.assume_header(default_header_);
 }
 
 void TcpIntake::on_line(const Line& raw_line) {
-  if (!status_ || refusal_) return;  // spoiled batch or refused: nothing more is read
+  // A spoiled or dropped batch, or a refusal: nothing more is read.
+  if (!status_ || dropped_ || refusal_) return;
   if (!authenticated_ && authenticate(raw_line)) return;
   const Line line{raw_line.text, ++number_, raw_line.too_long};
-  if (!parser_.columns()) choose_columns(line);
+  if (!intake_.has_header()) choose_columns(line);
 
-  const SourcePosition at{source_name_, line.number, line.text};
-  const ParsedLine parsed = parser_.parse_line(line);
-  if (const auto* record = std::get_if<Record>(&parsed)) {
-    status_ = ingestor_->reading(*record, at);
-    last_stored_line_ = line.number;
-    if (status_ && ingestor_->last_conflict()) {
-      // Another stage is stored for this site and time: kept in rejects, and the client told.
-      *replies_ += reply::error(line.number, "conflict", *ingestor_->last_conflict());
-    }
-  } else if (const auto* rejected = std::get_if<LineReject>(&parsed)) {
-    status_ = ingestor_->reject(name(rejected->kind), rejected->reason, at);
-    last_stored_line_ = line.number;
-    *replies_ += reply::error(line.number, name(rejected->kind), rejected->reason);
-  } else if (const auto* error = std::get_if<Error>(&parsed)) {
-    // Cannot happen with a header chosen above; kept so that no line is ever lost.
-    status_ = ingestor_->reject("bad_header", error->message, at);
-    last_stored_line_ = line.number;
-    *replies_ += reply::error(line.number, "bad_header", error->message);
+  auto taken = intake_.take(line);
+  if (!taken) {
+    last_stored_line_ = line.number;  // it may be half in the batch, which is spoiled now
+    status_ = std::unexpected(std::move(taken.error()));
+    return;
+  }
+  if (taken->reached_store()) last_stored_line_ = line.number;
+  if (taken->kind == LineOutcome::Kind::rejected || taken->kind == LineOutcome::Kind::conflict) {
+    // Kept in rejects, and the client told at once; a later `ok` covers the line.
+    *replies_ += reply::error(line.number, taken->reject_kind, taken->reason);
   }
   // A header, blank or comment line needs no storing: it is acknowledged as soon as every line
   // before it is.
   if (last_stored_line_ <= acked_) acked_ = number_;
 }
 
-}  // namespace stagewell::service
+}  // namespace stagewell

@@ -1,5 +1,7 @@
 // The protocol of a `type: tcp` source, for one connection, without the socket: bytes in (any
-// split), lines out to the Ingestor, replies back. See README, "Readings over TCP".
+// split), lines through the LineIntake (line_intake.hpp), replies out as text. See README,
+// "Readings over TCP". The service's TcpSession (daemon/stagewelld/) owns the socket, its buffers
+// and timers, and hands this object the bytes it reads and the commits it hears of.
 //
 // Client -> service, one line each, ending in "\n" or "\r\n":
 //   auth <secret>       first, when the source has a secret (otherwise allowed and ignored)
@@ -22,7 +24,8 @@
 // columns (as a file's header does); otherwise the columns are the source's, in the order site
 // (unless the source has a fixed site), time, stage, and that line is the first reading.
 //
-// Not thread-safe: belongs to its connection.
+// Not thread-safe: a plain object (no socket, no I/O of its own) belonging to one connection, and
+// called on the thread that owns the Ingestor.
 #pragma once
 
 #include <cstdint>
@@ -32,18 +35,21 @@
 
 #include "stagewell/config.hpp"
 #include "stagewell/ingestor.hpp"
+#include "stagewell/line_intake.hpp"
 #include "stagewell/line_splitter.hpp"
-#include "stagewell/records.hpp"
 #include "stagewell/result.hpp"
 
-namespace stagewell::service {
+namespace stagewell {
 
-// The replies, one line each with its "\n".
+// The replies, one line each with its "\n". Control bytes in a reason become '?', and a long
+// reason is cut, so that a reply is always one line.
 namespace reply {
 std::string ok(std::int64_t line);
 std::string error(std::int64_t line, std::string_view kind, std::string_view reason);
 std::string refused(std::string_view what, std::string_view reason);
 std::string closing(std::string_view reason);
+// The `closing` line after the store failed: the lines after the last `ok` must be sent again.
+std::string store_failed();
 }  // namespace reply
 
 // True when `given` equals `secret`. Takes the same time wherever they first differ (it depends
@@ -57,8 +63,9 @@ class TcpIntake {
   static Result<TcpIntake> create(const SourceSpec& spec, std::string source_name,
                                   Ingestor& ingestor);
 
-  // Processes every line that `bytes` completes; error lines and a refusal go to `replies`.
-  // Fails only when the store fails (the open batch is then spoiled: Ingestor::commit()).
+  // Processes every line that `bytes` completes; appends `error` lines and a refusal to
+  // `replies`. Fails only when the store fails (the open batch is then spoiled:
+  // Ingestor::commit()); the connection is then to be closed with reply::store_failed().
   Result<void> feed(std::string_view bytes, std::string& replies);
   // The client will send nothing more: a last line without a newline is processed too.
   Result<void> finish(std::string& replies);
@@ -67,6 +74,11 @@ class TcpIntake {
   void committed();
   // Appends `ok <n>` when more lines are known stored than were last reported.
   void report_ack(std::string& replies);
+  // The open batch was dropped (a failed commit, Ingestor::reset()). When some line of this
+  // connection was in it, appends the last `ok` (if not yet sent) and reply::store_failed(), reads
+  // nothing more, and returns true: the connection is to be closed, so that its client sends
+  // those lines again. Otherwise returns false and nothing changes.
+  bool batch_dropped(std::string& replies);
 
   // Some line fed went into a batch not yet committed (it is lost if that batch is dropped).
   bool awaiting_commit() const { return last_stored_line_ > acked_; }
@@ -77,8 +89,7 @@ class TcpIntake {
   std::int64_t acked() const { return acked_; }
 
  private:
-  TcpIntake(const SourceSpec& spec, std::string source_name, Ingestor& ingestor,
-            RecordParser parser);
+  TcpIntake(const SourceSpec& spec, LineIntake intake);
   void on_line(const Line& line);
   bool authenticate(const Line& line);  // true when the line was the connection's `auth` line
   void choose_columns(const Line& line);
@@ -88,12 +99,11 @@ class TcpIntake {
   ColumnNames columns_;
   bool need_site_ = true;       // no fixed site: lines carry one
   std::string default_header_;  // the header assumed when the client sends none
-  std::string source_name_;
-  Ingestor* ingestor_;
-  RecordParser parser_;
+  LineIntake intake_;
   LineSplitter splitter_;
   std::string* replies_ = nullptr;  // where on_line writes, during feed() and finish()
   bool authenticated_ = false;
+  bool dropped_ = false;  // lines of it were in a dropped batch: nothing more is read
   std::optional<std::string> refusal_;
   std::int64_t number_ = 0;            // lines counted so far (the client's numbering)
   std::int64_t last_stored_line_ = 0;  // last line that went to the store (reading or reject)
@@ -102,4 +112,4 @@ class TcpIntake {
   Result<void> status_;                // the first store failure, sticky
 };
 
-}  // namespace stagewell::service
+}  // namespace stagewell
