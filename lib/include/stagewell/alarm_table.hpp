@@ -13,7 +13,7 @@
 
 namespace stagewell {
 
-class AlarmTable {
+class AlarmTable : store_detail::TableHandle {
  public:
   // A raise adds an open alarm (refused when one of the site and kind is open already: the
   // table's unique index); a clear closes the site's open alarm of that kind (nothing when none
@@ -31,9 +31,7 @@ class AlarmTable {
   Result<bool> available();
 
  private:
-  friend class Store;
-  explicit AlarmTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 }  // namespace stagewell

@@ -17,7 +17,7 @@
 
 namespace stagewell {
 
-class DailyTable {
+class DailyTable : store_detail::TableHandle {
  public:
   // Stores one day's figures and flag counts, replacing what was stored; deletes the rows of an
   // empty day. REQUIRES: `batch` is open on this table's store.
@@ -37,9 +37,7 @@ class DailyTable {
   Result<void> set_settings(WriteBatch& batch, SiteKey site, std::string_view settings);
 
  private:
-  friend class Store;
-  explicit DailyTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 }  // namespace stagewell

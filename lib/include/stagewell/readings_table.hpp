@@ -31,7 +31,7 @@ struct PlotReading {
 // The first and last time of something, ms (both included).
 using TimeSpan = std::pair<std::int64_t, std::int64_t>;
 
-class ReadingsTable {
+class ReadingsTable : store_detail::TableHandle {
  public:
   // The last `count` readings of `site` at or before `at_or_before_ms`, oldest first (to restore
   // the state of a site's checks and alarms; count 1 is the latest reading).
@@ -78,9 +78,7 @@ class ReadingsTable {
   Result<void> rewrite_flags(WriteBatch& batch, SiteKey site, std::int64_t time_ms, Flags flags);
 
  private:
-  friend class Store;
-  explicit ReadingsTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 }  // namespace stagewell

@@ -15,7 +15,7 @@
 namespace stagewell {
 
 // `sites`: the key every other table uses for a site id.
-class SitesTable {
+class SitesTable : store_detail::TableHandle {
  public:
   // The key of site `id`, added on first use, in a transaction of its own.
   // REQUIRES: read-write; no batch open (a key added inside a batch that rolls back would vanish).
@@ -24,13 +24,11 @@ class SitesTable {
   Result<std::optional<SiteKey>> find(std::string_view id);
 
  private:
-  friend class Store;
-  explicit SitesTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 // `config_versions`: what computed each stored reading.
-class VersionsTable {
+class VersionsTable : store_detail::TableHandle {
  public:
   // Records the site's configuration (JSON text), in a transaction of its own. The same text for
   // the same site returns the same id; a new text returns a new one. `now_ms` becomes its created
@@ -40,13 +38,11 @@ class VersionsTable {
   Result<std::optional<std::string>> hash(ConfigVersionId version);
 
  private:
-  friend class Store;
-  explicit VersionsTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 // `ingest_progress`: how far each source has been read (written by WriteBatch::set_progress).
-class ProgressTable {
+class ProgressTable : store_detail::TableHandle {
  public:
   // How far `source` has been read; empty when it never was.
   Result<std::optional<IngestProgress>> committed(std::string_view source);
@@ -54,9 +50,7 @@ class ProgressTable {
   Result<std::vector<SourceProgress>> latest(std::size_t max_rows);
 
  private:
-  friend class Store;
-  explicit ProgressTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 // One row of `recomputation_runs` (schema/004_history.sql, renamed by 005): one recomputation of
@@ -73,7 +67,7 @@ struct RecomputationRun {
   double max_daily_volume_change = 0.0;  // m^3 or ft^3
 };
 
-class RecomputationRunsTable {
+class RecomputationRunsTable : store_detail::TableHandle {
  public:
   // Adds a run; returns its id. REQUIRES: `batch` is open on this table's store.
   Result<std::int64_t> add(WriteBatch& batch, const RecomputationRun& run);
@@ -81,9 +75,7 @@ class RecomputationRunsTable {
   Result<void> update(WriteBatch& batch, std::int64_t id, const RecomputationRun& run);
 
  private:
-  friend class Store;
-  explicit RecomputationRunsTable(store_detail::Core* core) : core_(core) {}
-  store_detail::Core* core_;
+  using TableHandle::TableHandle;
 };
 
 }  // namespace stagewell

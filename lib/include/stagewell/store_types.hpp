@@ -15,10 +15,20 @@
 
 namespace stagewell {
 
+class Store;
 class WriteBatch;
 namespace store_detail {
 struct Core;  // what a Store holds: its connection and state (lib/src/store/store_core.hpp)
-}
+
+// What every table's handle is: a pointer to its store's state, handed out by the Store
+// (Store::readings() etc.). A handle does not outlive its store.
+class TableHandle {
+ protected:
+  friend class stagewell::Store;
+  explicit TableHandle(Core* core) : core_(core) {}
+  Core* core_;
+};
+}  // namespace store_detail
 
 // A site's key in the database (sites.site_key).
 struct SiteKey {

@@ -27,6 +27,15 @@ StoredReading stored_reading(SiteKey site, const sqlite::Statement& s) {
                        .config = ConfigVersionId{s.column_int64(5)}};
 }
 
+// Binds a site's range of times: ?1 the site, ?2 and ?3 the first and last time (ms).
+sqlite::Statement& bind_range(sqlite::Statement& s, SiteKey site, std::int64_t from_ms,
+                              std::int64_t to_ms) {
+  s.bind(1, site.value);
+  s.bind(2, from_ms);
+  s.bind(3, to_ms);
+  return s;
+}
+
 Result<std::int64_t> single_count(sqlite::Statement& statement) {
   auto count = first_row(statement, [](const auto& s) { return s.column_int64(0); });
   if (!count) return std::unexpected(count.error());
@@ -110,10 +119,7 @@ Result<std::int64_t> ReadingsTable::count(SiteKey site, std::int64_t from_ms, st
   auto select = core_->db().cached(
       "SELECT count(*) FROM readings WHERE site_key = ?1 AND time_ms BETWEEN ?2 AND ?3");
   if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, site.value);
-  (*select)->bind(2, from_ms);
-  (*select)->bind(3, to_ms);
-  return single_count(**select);
+  return single_count(bind_range(**select, site, from_ms, to_ms));
 }
 
 Result<std::optional<TimeSpan>> ReadingsTable::span(SiteKey site) {
@@ -133,10 +139,7 @@ Result<void> ReadingsTable::range(SiteKey site, std::int64_t from_ms, std::int64
       "SELECT time_ms, stage, depth, discharge, flags, config_id FROM readings "
       "WHERE site_key = ?1 AND time_ms BETWEEN ?2 AND ?3 ORDER BY time_ms LIMIT ?4");
   if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, site.value);
-  (*select)->bind(2, from_ms);
-  (*select)->bind(3, to_ms);
-  (*select)->bind(4, row_limit(max_rows));
+  bind_range(**select, site, from_ms, to_ms).bind(4, row_limit(max_rows));
   return each_row(**select, [&](const auto& s) { out.push_back(stored_reading(site, s)); });
 }
 
@@ -148,11 +151,7 @@ Result<void> ReadingsTable::day_readings(SiteKey site, std::int64_t from_ms, std
       "SELECT time_ms, discharge, flags FROM readings "
       "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms <= ?3 ORDER BY time_ms");
   if (!select) return std::unexpected(select.error());
-  auto& s = **select;
-  s.bind(1, site.value);
-  s.bind(2, from_ms);
-  s.bind(3, to_ms);
-  return each_row(s, [&](const auto& row) {
+  return each_row(bind_range(**select, site, from_ms, to_ms), [&](const auto& row) {
     out.push_back({row.column_int64(0), row.column_optional_double(1), flags_column(row, 2)});
   });
 }
@@ -174,12 +173,8 @@ Result<std::vector<plot::PlotReading>> ReadingsTable::plot_readings(SiteKey site
       "SELECT time_ms, stage, discharge, flags FROM readings "
       "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms < ?3 ORDER BY time_ms");
   if (!select) return std::unexpected(select.error());
-  auto& s = **select;
-  s.bind(1, site.value);
-  s.bind(2, from_ms);
-  s.bind(3, to_ms);
   std::vector<plot::PlotReading> readings;
-  auto read = each_row(s, [&](const auto& row) {
+  auto read = each_row(bind_range(**select, site, from_ms, to_ms), [&](const auto& row) {
     readings.push_back({row.column_int64(0), row.column_double(1), row.column_optional_double(2),
                         flags_column(row, 3)});
   });
@@ -194,10 +189,7 @@ Result<std::optional<TimeSpan>> ReadingsTable::mismatched(SiteKey site, std::int
       "SELECT min(time_ms), max(time_ms) FROM readings "
       "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms < ?3 AND config_id != ?4");
   if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, site.value);
-  (*select)->bind(2, from_ms);
-  (*select)->bind(3, to_ms);
-  (*select)->bind(4, version.value);
+  bind_range(**select, site, from_ms, to_ms).bind(4, version.value);
   return time_span(**select);
 }
 
