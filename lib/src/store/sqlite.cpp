@@ -274,10 +274,12 @@ int Connection::on_busy(void* connection, int /*calls: counted by keep_waiting i
 void Connection::set_lock_wait(LockWait wait) {
   wait.poll_ms = std::clamp<std::int64_t>(wait.poll_ms, 1, kMaxPollMs);
   lock_wait_ = std::move(wait);
+  waits_for_locks_ = true;
   sqlite3_busy_handler(db_, on_busy, this);
 }
 
 bool Connection::keep_waiting() {
+  if (!waits_for_locks_) return false;  // as SQLite without a busy handler: fail at once
   // One statement may meet several locks (SQLite counts its calls per lock): its wait is one.
   if (!wait_.active) {
     wait_ = Wait{.active = true, .started = std::chrono::steady_clock::now()};

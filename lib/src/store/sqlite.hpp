@@ -167,6 +167,7 @@ class Connection {
   Access access_;
   StepHook step_hook_;
   LockWait lock_wait_;
+  bool waits_for_locks_ = false;  // set_lock_wait() was called
   // The wait of the statement running now (one at a time: see the top of the file).
   struct Wait {
     bool active = false;
