@@ -116,7 +116,16 @@ bool Service::open(const Config& config) {
     ensure_directory(spec.type == SourceSpec::Type::directory ? spec.path : spec.path.parent_path(),
                      "source directory");
   }
-  auto ingestor = Ingestor::open(config, IngestorOptions{}, system_now_ms);
+  IngestorOptions options;
+  // The store logs nothing itself: a long wait for another process's lock is told here.
+  options.store.lock_wait.on_waiting = [path = config.database.string()](std::int64_t waited_ms) {
+    spdlog::warn("store: waiting for a lock another connection holds on {} ({} ms so far)", path,
+                 waited_ms);
+  };
+  options.store.lock_wait.on_resumed = [](std::int64_t waited_ms) {
+    spdlog::info("store: the lock was released after {} ms; going on", waited_ms);
+  };
+  auto ingestor = Ingestor::open(config, options, system_now_ms);
   if (!ingestor) {
     spdlog::error("cannot open the database {}: {}", config.database.string(),
                   ingestor.error().message);
@@ -418,11 +427,8 @@ void Service::recompute_step() {
     return;
   }
   Recomputation& work = *recomputations_.front();
+  // The Ingestor notices the readings rewritten by itself (Store::stored_readings_changed).
   auto stepped = work.step(ingestor_->store(), kRecomputeStepReadings);
-  // Whatever the step committed, the ingest's in-memory copies of stored readings are stale.
-  if (auto refreshed = ingestor_->stored_readings_rewritten(); !refreshed) {
-    recover(refreshed.error());
-  }
   if (!stepped) {
     spdlog::error(
         "{}: recomputation stopped: {}; what was committed stays, the rest is found "
