@@ -25,7 +25,7 @@ Result<std::string> hydrograph(Report& r, const std::string& period) {
   const std::int64_t to_ms = calendar.start_ms(r.to + 1);
   std::vector<plot::PlotReading> readings;
   if (const auto site = r.reader.site()) {
-    auto read = plot::read_plot_readings(r.reader.store().connection(), *site, from_ms, to_ms);
+    auto read = r.reader.store().readings().plot_readings(*site, from_ms, to_ms);
     if (!read) return std::unexpected(read.error());
     readings = std::move(*read);
   }

@@ -50,10 +50,7 @@ void TcpConnections::feed(std::uint64_t id, std::string_view bytes) {
   std::string replies;
   auto fed = connection.intake.feed(bytes, replies);
   if (!fed) {
-    // The batch is spoiled: dropping it closes every connection with lines in it (on_commit),
-    // this one included; the replies so far go first.
-    report(connection, std::move(replies), true);
-    hooks_.failed(fed.error());
+    store_failed(connection, std::move(replies), fed.error());
     return;
   }
   note_activity(connection);
@@ -68,8 +65,7 @@ void TcpConnections::finish(std::uint64_t id) {
   std::string replies;
   auto done = connection.intake.finish(replies);
   if (!done) {
-    report(connection, std::move(replies), true);
-    hooks_.failed(done.error());
+    store_failed(connection, std::move(replies), done.error());
     return;
   }
   note_activity(connection);
@@ -79,6 +75,21 @@ void TcpConnections::finish(std::uint64_t id) {
 }
 
 void TcpConnections::disconnect(std::uint64_t id) { connections_.erase(id); }
+
+void TcpConnections::store_failed(Connection& connection, std::string replies, const Error& error) {
+  // A line of this connection could not be stored (the batch is spoiled, or could not even be
+  // begun): the connection is closed at once with its last `ok` and the closing line — never an
+  // `ok` past what is committed — and the batch is dropped, which closes the other connections
+  // with lines in it (on_commit).
+  if (!connection.intake.batch_dropped(replies)) replies += reply::store_failed();
+  connection.closed = true;
+  TcpReport out;
+  out.replies = std::move(replies);
+  out.took_chunk = true;
+  out.closing = "";
+  connection.link.deliver(std::move(out));
+  hooks_.failed(error);
+}
 
 void TcpConnections::note_activity(Connection& connection) {
   if (!connection.intake.awaiting_commit()) return;

@@ -48,6 +48,7 @@ class TcpConnections {
   struct Connection;
   void on_commit(bool committed);
   void report(Connection& connection, std::string replies, bool took_chunk);
+  void store_failed(Connection& connection, std::string replies, const Error& error);
   void note_activity(Connection& connection);
 
   Ingestor& ingestor_;

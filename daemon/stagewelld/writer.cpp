@@ -128,6 +128,22 @@ class WriterCore {
 
 Result<int> WriterCore::open(const Config& config) {
   IngestorOptions options;
+  // The writer waits for another process's lock as long as it takes, so that nothing is dropped
+  // and read again for it; a stop cancels the wait. The store logs nothing itself: the wait is
+  // told here, once when it has lasted a second and once when it ends.
+  auto& wait = options.store.lock_wait;
+  wait.give_up_after_ms.reset();
+  wait.cancel = owner_.cancel_;
+  wait.on_waiting = [path = config.database.string()](std::int64_t waited_ms) {
+    spdlog::warn(
+        "database: {} is locked by another connection; waiting for it ({} ms so far; input is "
+        "held, nothing is lost)",
+        path, waited_ms);
+  };
+  wait.on_resumed = [](std::int64_t waited_ms) {
+    spdlog::info("database: working again after waiting {:.1f} s for the lock",
+                 static_cast<double>(waited_ms) / 1000.0);
+  };
   auto ingestor = Ingestor::open(config, options, system_now_ms);
   if (!ingestor) {
     return fail(ingestor.error().kind,
@@ -170,9 +186,18 @@ bool WriterCore::close(std::string_view tcp_reason) {
   recomputations_.clear();  // planned again for the next configuration (the work left is found)
   bool ok = true;
   if (auto committed = ingestor_->commit(); !committed) {
-    spdlog::error("final commit failed: {}; that input will be read again at the next start",
-                  committed.error().message);
-    ok = false;
+    if (committed.error().kind == ErrorKind::cancelled) {
+      // Another process holds the lock past the stop's deadline. Nothing acknowledged is lost:
+      // the batch's input is read again at the next start, and tcp clients send again what was
+      // not acknowledged.
+      spdlog::warn(
+          "the database is still locked by another connection; what was not committed "
+          "will be read again at the next start");
+    } else {
+      spdlog::error("final commit failed: {}; that input will be read again at the next start",
+                    committed.error().message);
+      ok = false;
+    }
   }
   tcp_->close_all(tcp_reason);
   tcp_.reset();
@@ -242,7 +267,8 @@ void WriterCore::poll() {
   for (auto& source : sources_) {
     auto polled = source->poll(kBytesPerPoll);
     if (!polled) {
-      if (polled.error().kind == ErrorKind::database) {
+      if (polled.error().kind == ErrorKind::database ||
+          polled.error().kind == ErrorKind::cancelled) {
         recover(polled.error());
         return;
       }
@@ -313,16 +339,27 @@ void WriterCore::after_commit() {
 }
 
 void WriterCore::recover(const Error& error) {
-  if (!ingestor_) return;
-  if (stopping_) return;  // the stop commits (or drops) what is in hand itself
+  if (!ingestor_ || stopping_) return;  // a stop commits (or drops) what is in hand itself
   // Nothing of the failed batch is stored and no progress past it: read again from stored
   // progress. Dropping the batch closes the tcp connections with lines in it (their clients
   // send them again).
-  spdlog::error("store: {}; the batch is dropped and its input will be read again", error.message);
+  const bool cancelled = error.kind == ErrorKind::cancelled;
+  if (cancelled) {
+    spdlog::info(
+        "database: stopped waiting for the lock; what was not committed is read again "
+        "at the next start");
+  } else {
+    spdlog::error("store: {}; the batch is dropped and its input will be read again",
+                  error.message);
+  }
   if (auto reset = ingestor_->reset(); !reset) {
     spdlog::error("store: {}", reset.error().message);
   }
   for (auto& source : sources_) source->reset();
+  if (cancelled) {
+    stopping_ = true;  // a stop asked for the cancel: nothing more is read (it follows)
+    return;
+  }
   poll_timer_.expires_after(kRecoveryPause);
   poll_timer_.async_wait([this](const boost::system::error_code& cancelled) {
     if (!cancelled) poll();
@@ -386,11 +423,8 @@ void WriterCore::recompute_step() {
     return;
   }
   Recomputation& work = *recomputations_.front();
+  // The Ingestor notices the readings the step rewrites by itself (Store::stored_readings_changed).
   auto stepped = work.step(ingestor_->store(), kRecomputeStepReadings);
-  // Whatever the step committed, the ingest's in-memory copies of stored readings are stale.
-  if (auto refreshed = ingestor_->stored_readings_rewritten(); !refreshed) {
-    recover(refreshed.error());
-  }
   if (!stepped) {
     spdlog::error(
         "{}: recomputation stopped: {}; what was committed stays, the rest is found "

@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "../store/raw_connection.hpp"
 #include "../store/store_test_support.hpp"
 #include "stagewell/alarms.hpp"
 
@@ -46,7 +47,7 @@ std::vector<Row> view_rows(const std::filesystem::path& db) {
 void write(Store& store, SiteKey site, const AlarmEvent& event) {
   auto batch = store.begin();
   REQUIRE(batch.has_value());
-  auto recorded = record_event(batch->connection(), site, event);
+  auto recorded = store.alarms().record(*batch, site, event);
   REQUIRE_MESSAGE(recorded.has_value(), recorded.error().message);
   REQUIRE(batch->commit().has_value());
 }
@@ -77,7 +78,7 @@ TEST_CASE("a raised alarm is open in the view until it is cleared") {
   CHECK_FALSE(rows[0].cleared.has_value());
   CHECK(rows[0].value == 0.03);
   CHECK(rows[0].threshold == 0.05);
-  auto open = open_alarms(store);
+  auto open = store.alarms().open();
   REQUIRE(open.has_value());
   REQUIRE(open->size() == 1);
   CHECK((*open)[0].kind == AlarmKind::low_flow);
@@ -88,8 +89,8 @@ TEST_CASE("a raised alarm is open in the view until it is cleared") {
   REQUIRE(rows.size() == 1);
   CHECK(rows[0].cleared == "2026-05-14T06:35:00.250Z");
   CHECK(rows[0].value == 0.03);  // what raised it, not what cleared it
-  CHECK(open_alarms(store).value().empty());
-  auto kinds = open_kinds(store.connection(), site.key);
+  CHECK(store.alarms().open().value().empty());
+  auto kinds = store.alarms().open_kinds(site.key);
   REQUIRE(kinds.has_value());
   CHECK(kinds->empty());
 }
@@ -102,12 +103,12 @@ TEST_CASE("a second open alarm of the same site and kind is refused") {
   auto batch = store.begin();
   REQUIRE(batch.has_value());
   const AlarmEvent again{AlarmKind::stale, AlarmEvent::Change::raised, kCleared, 1900, 1800};
-  CHECK_FALSE(record_event(batch->connection(), site.key, again).has_value());
+  CHECK_FALSE(store.alarms().record(*batch, site.key, again).has_value());
   // Another kind may be open at the same time.
   const AlarmEvent low{AlarmKind::low_flow, AlarmEvent::Change::raised, kCleared, 0.01, 0.05};
-  CHECK(record_event(batch->connection(), site.key, low).has_value());
+  CHECK(store.alarms().record(*batch, site.key, low).has_value());
   REQUIRE(batch->commit().has_value());
-  auto kinds = open_kinds(store.connection(), site.key);
+  auto kinds = store.alarms().open_kinds(site.key);
   REQUIRE(kinds.has_value());
   CHECK(kinds->size() == 2);
 }

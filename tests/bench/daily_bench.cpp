@@ -55,8 +55,8 @@ struct Fixture {
     auto opened = Store::open(dir / "bench.db");
     if (!opened) std::abort();
     store.emplace(std::move(*opened));
-    site = *store->ensure_site("bench");
-    const auto config = *store->record_config(site, "{}", 0);
+    site = *store->sites().ensure("bench");
+    const auto config = *store->versions().record(site, "{}", 0);
     rules.max_gap_ms = 15 * kMinuteMs;
     for (std::int64_t first = 0; first < kReadings; first += 50'000) {
       auto batch = store->begin();
@@ -95,11 +95,11 @@ void BM_FullRecompute(benchmark::State& state) {
   for (auto _ : state) {
     auto batch = f.store->begin();
     if (!batch) state.SkipWithError(batch.error().message.c_str());
-    auto done = recompute_site(batch->connection(), f.site, f.calendar, f.rules, "bench");
+    auto done = recompute_site(*f.store, *batch, f.site, f.calendar, f.rules, "bench");
     if (!done) state.SkipWithError(done.error().message.c_str());
     if (!batch->commit()) state.SkipWithError("commit failed");
   }
-  auto days = read_days(f.store->connection(), f.site, Day(2025, 1, 1), Day(2027, 12, 31));
+  auto days = f.store->daily().days(f.site, Day(2025, 1, 1), Day(2027, 12, 31));
   state.counters["days"] = static_cast<double>(days ? days->size() : 0);
   state.counters["readings"] = static_cast<double>(kReadings);
 }
@@ -107,9 +107,8 @@ BENCHMARK(BM_FullRecompute)->Unit(benchmark::kMillisecond)->MinTime(2.0);
 
 void BM_ComputeOnly(benchmark::State& state) {
   Fixture& f = fixture();
-  auto readings =
-      read_readings(f.store->connection(), f.site, std::numeric_limits<std::int64_t>::min(),
-                    std::numeric_limits<std::int64_t>::max());
+  auto readings = f.store->readings().day_readings(f.site, std::numeric_limits<std::int64_t>::min(),
+                                                   std::numeric_limits<std::int64_t>::max());
   if (!readings) {
     state.SkipWithError(readings.error().message.c_str());
     return;

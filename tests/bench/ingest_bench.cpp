@@ -302,9 +302,9 @@ Timing raw_insert(const Config& config, const fs::path& database, const std::vec
     auto store = Store::open(database);
     if (!store) die(store.error().message);
     for (const auto& site : config.sites) {
-      auto key = store->ensure_site(site.id);
+      auto key = store->sites().ensure(site.id);
       if (!key) die(key.error().message);
-      if (auto version = store->record_config(*key, "{}", 0); !version) {
+      if (auto version = store->versions().record(*key, "{}", 0); !version) {
         die(version.error().message);
       }
     }

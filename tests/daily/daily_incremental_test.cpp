@@ -58,9 +58,16 @@ std::vector<StoredReading> slice(const std::vector<StoredReading>& all, std::siz
           all.begin() + static_cast<std::ptrdiff_t>(to)};
 }
 
-void commit_batch(Store& store, DailyKeeper& keeper, const std::vector<StoredReading>& readings) {
+// One batch as the ingest commits it: the keeper's owner first asks the store whether the stored
+// readings changed since it last looked (another connection's commit) and makes the keeper forget
+// its copy if so.
+void commit_batch(Store& store, DailyKeeper& keeper, ReadingsMark& seen,
+                  const std::vector<StoredReading>& readings) {
   auto batch = store.begin();
   REQUIRE(batch.has_value());
+  auto changed = store.stored_readings_changed(seen);
+  REQUIRE(changed.has_value());
+  if (*changed) keeper.forget();
   for (const auto& r : readings) {
     auto inserted = batch->insert(r);
     REQUIRE(inserted.has_value());
@@ -68,20 +75,20 @@ void commit_batch(Store& store, DailyKeeper& keeper, const std::vector<StoredRea
       keeper.stored(r.site, {r.time_ms, r.discharge, r.flags});
     }
   }
-  REQUIRE(keeper.update(batch->connection()).has_value());
+  REQUIRE(keeper.update(store, *batch).has_value());
   REQUIRE(batch->commit().has_value());
 }
 
 std::vector<DayFigures> stored_figures(Store& store, SiteKey site) {
-  auto days = read_days(store.connection(), site, Day(2000, 1, 1), Day(2100, 1, 1));
+  auto days = store.daily().days(site, Day(2000, 1, 1), Day(2100, 1, 1));
   REQUIRE(days.has_value());
   return *days;
 }
 
 std::vector<DayFigures> full_recomputation(Store& store, SiteKey site, const DayCalendar& calendar,
                                            const DayRules& rules) {
-  auto readings = read_readings(store.connection(), site, std::numeric_limits<std::int64_t>::min(),
-                                std::numeric_limits<std::int64_t>::max());
+  auto readings = store.readings().day_readings(site, std::numeric_limits<std::int64_t>::min(),
+                                                std::numeric_limits<std::int64_t>::max());
   REQUIRE(readings.has_value());
   return compute_days(*readings, calendar, rules);
 }
@@ -101,9 +108,11 @@ struct KeptSite {
   test::Site site = test::add_site(store, "gauge");
   Config config = denver_config();
   DayRules rules = rules_for(config.sites.front(), config.daily);
+  ReadingsMark seen;  // what the keeper's copy was taken from (commit_batch)
   std::optional<DailyKeeper> keeper = make_keeper();
 
   std::optional<DailyKeeper> make_keeper() {
+    REQUIRE(store.stored_readings_changed(seen).has_value());
     auto made = DailyKeeper::create(config);
     REQUIRE(made.has_value());
     REQUIRE(made->add_site(store, site.key, config.sites.front()).has_value());
@@ -122,14 +131,14 @@ TEST_CASE_FIXTURE(KeptSite,
   std::reverse(late.begin(), late.end());
   for (std::size_t start = 0; start < on_time.size(); start += 400) {
     const auto end = std::min(start + 400, on_time.size());
-    commit_batch(store, *keeper, slice(on_time, start, end));
+    commit_batch(store, *keeper, seen, slice(on_time, start, end));
   }
   check_equal(stored_figures(store, site.key),
               full_recomputation(store, site.key, keeper->calendar(), rules));
   const std::size_t third = late.size() / 3;
-  commit_batch(store, *keeper, slice(late, 0, third));
-  commit_batch(store, *keeper, slice(late, third, 2 * third));
-  commit_batch(store, *keeper, slice(late, 2 * third, late.size()));
+  commit_batch(store, *keeper, seen, slice(late, 0, third));
+  commit_batch(store, *keeper, seen, slice(late, third, 2 * third));
+  commit_batch(store, *keeper, seen, slice(late, 2 * third, late.size()));
   {
     auto batch = store.begin();
     REQUIRE(batch.has_value());
@@ -137,7 +146,7 @@ TEST_CASE_FIXTURE(KeptSite,
       REQUIRE(batch->add_flags(site.key, all[i].time_ms, Flag::spike).has_value());
       keeper->flagged(site.key, all[i].time_ms, Flag::spike);
     }
-    REQUIRE(keeper->update(batch->connection()).has_value());
+    REQUIRE(keeper->update(store, *batch).has_value());
     REQUIRE(batch->commit().has_value());
   }
   const auto kept = stored_figures(store, site.key);
@@ -155,8 +164,7 @@ TEST_CASE_FIXTURE(KeptSite,
   SUBCASE("recompute_site stores the same figures") {
     auto batch = store.begin();
     REQUIRE(batch.has_value());
-    REQUIRE(
-        recompute_site(batch->connection(), site.key, keeper->calendar(), rules, "x").has_value());
+    REQUIRE(recompute_site(store, *batch, site.key, keeper->calendar(), rules, "x").has_value());
     REQUIRE(batch->commit().has_value());
     check_equal(stored_figures(store, site.key), kept);
   }
@@ -170,7 +178,7 @@ TEST_CASE_FIXTURE(KeptSite,
     const auto recomputed = stored_figures(store, site.key);
     check_equal(recomputed, full_recomputation(store, site.key, again->calendar(), wider_rules));
     CHECK(recomputed != kept);
-    auto current = figures_current(store.connection(), site.key,
+    auto current = figures_current(store, site.key,
                                    settings_text(again->calendar(), wider.units, wider_rules));
     REQUIRE(current.has_value());
     CHECK(*current);
@@ -205,7 +213,7 @@ TEST_CASE_FIXTURE(
       REQUIRE(inserted.has_value());
       keeper->stored(r.site, {r.time_ms, r.discharge, r.flags});
     }
-    REQUIRE(keeper->update(batch->connection()).has_value());
+    REQUIRE(keeper->update(store, *batch).has_value());
     REQUIRE(batch->commit().has_value());
     CAPTURE(start);
     check_equal(stored_figures(store, site.key),
@@ -217,7 +225,7 @@ TEST_CASE_FIXTURE(KeptSite, "readings another connection committed in between ar
   // The keeper takes a batch's readings that are newer than everything stored from memory; a
   // second writer's readings in between must make it read the database again.
   const auto all = sample(site);
-  commit_batch(store, *keeper, slice(all, 0, 100));
+  commit_batch(store, *keeper, seen, slice(all, 0, 100));
   {
     Store other = test::open_store(dir.db());  // another writer on the same file
     auto batch = other.begin();
@@ -225,7 +233,7 @@ TEST_CASE_FIXTURE(KeptSite, "readings another connection committed in between ar
     for (const auto& r : slice(all, 100, 110)) REQUIRE(batch->insert(r).has_value());
     REQUIRE(batch->commit().has_value());
   }
-  commit_batch(store, *keeper, slice(all, 110, 200));
+  commit_batch(store, *keeper, seen, slice(all, 110, 200));
   check_equal(stored_figures(store, site.key),
               full_recomputation(store, site.key, keeper->calendar(), rules));
 }
@@ -233,7 +241,7 @@ TEST_CASE_FIXTURE(KeptSite, "readings another connection committed in between ar
 TEST_CASE_FIXTURE(KeptSite, "a failure while updating the figures stores nothing of the batch") {
   const auto all = sample(site);
   const auto first = slice(all, 0, 200);
-  commit_batch(store, *keeper, first);
+  commit_batch(store, *keeper, seen, first);
   const auto before = stored_figures(store, site.key);
 
   // Count the steps of a successful update of the next batch, then fail each of them in turn.
@@ -249,22 +257,22 @@ TEST_CASE_FIXTURE(KeptSite, "a failure while updating the figures stores nothing
         keeper->stored(r.site, {r.time_ms, r.discharge, r.flags});
       }
       store.set_step_hook_for_testing(test::FailNthStep(n, SQLITE_IOERR));
-      updated = keeper->update(batch->connection()).has_value();
+      updated = keeper->update(store, *batch).has_value();
       store.set_step_hook_for_testing({});
       if (updated) {
         REQUIRE(batch->commit().has_value());
       } else {
         // Inside the failed transaction the readings are there; the caller's duty is not to
         // commit, and the batch rolls back as it goes out of scope.
-        CHECK(*store.count_readings(site.key) == 260);
+        CHECK(*store.readings().count(site.key) == 260);
       }
     }
     if (updated) break;  // n is past the last step: every failure point has been tried
-    CHECK(*store.count_readings(site.key) == 200);
+    CHECK(*store.readings().count(site.key) == 200);
     check_equal(stored_figures(store, site.key), before);
     REQUIRE(n < 10000);
   }
-  CHECK(*store.count_readings(site.key) == 260);
+  CHECK(*store.readings().count(site.key) == 260);
 }
 
 }  // namespace

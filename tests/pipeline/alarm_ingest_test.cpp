@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "../store/raw_connection.hpp"
 #include "../store/store_test_support.hpp"
 #include "stagewell/alarms.hpp"
 #include "stagewell/config.hpp"
@@ -102,7 +103,7 @@ TEST_CASE("an alarm is committed with the readings that raise it, and survives a
   const auto rows = alarm_rows(dir);
   REQUIRE(rows.size() == 1);
   CHECK(rows[0].cleared == "2026-05-14T06:25:00Z");
-  auto open = alarms::open_alarms(h.ingestor->store());
+  auto open = h.ingestor->store().alarms().open();
   REQUIRE(open.has_value());
   CHECK(open->empty());
 }

@@ -10,6 +10,7 @@
 #include <string>
 #include <vector>
 
+#include "../store/raw_connection.hpp"
 #include "../store/store_test_support.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/daily.hpp"
@@ -54,27 +55,39 @@ TEST_CASE("daily figures stay exact when stored readings are rewritten between b
   Ingestor& ingestor = **opened;
   feed(ingestor, 0, 300);  // 06:00 to 11:00 of one UTC day
 
-  // A stand-in for a recomputation: every stored discharge doubled, on the same connection.
-  REQUIRE(ingestor.store()
-              .connection()
-              .exec("UPDATE readings SET discharge = 2 * discharge")
-              .has_value());
-  REQUIRE(ingestor.stored_readings_rewritten().has_value());
+  auto site = ingestor.store().sites().find("raceway");
+  REQUIRE(site.has_value());
+  REQUIRE(site->has_value());
+  const SiteKey key = **site;
+
+  // A stand-in for a recomputation: every stored discharge doubled, through the same store.
+  {
+    Store& store = ingestor.store();
+    std::vector<StoredReading> stored;
+    REQUIRE(store.readings()
+                .range(key, std::numeric_limits<std::int64_t>::min(),
+                       std::numeric_limits<std::int64_t>::max(), 1'000'000, stored)
+                .has_value());
+    REQUIRE(stored.size() == 300);
+    auto batch = store.begin();
+    REQUIRE(batch.has_value());
+    for (const StoredReading& r : stored) {
+      const ComputedReading doubled{r.depth, r.discharge.transform([](double q) { return 2 * q; }),
+                                    r.flags, r.config};
+      REQUIRE(store.readings().rewrite(*batch, key, r.time_ms, doubled).has_value());
+    }
+    REQUIRE(batch->commit().has_value());
+  }
   feed(ingestor, 300, 600);  // the same day goes on
 
-  auto site = ingestor.store().ensure_site("raceway");
-  REQUIRE(site.has_value());
-  const SiteKey key = *site;
-  auto readings = daily::read_readings(ingestor.store().connection(), key,
-                                       std::numeric_limits<std::int64_t>::min(),
-                                       std::numeric_limits<std::int64_t>::max());
+  auto readings = ingestor.store().readings().day_readings(
+      key, std::numeric_limits<std::int64_t>::min(), std::numeric_limits<std::int64_t>::max());
   REQUIRE(readings.has_value());
   auto keeper = daily::DailyKeeper::create(config);
   REQUIRE(keeper.has_value());
   const auto want = daily::compute_days(*readings, keeper->calendar(),
                                         daily::rules_for(config.sites.front(), config.daily));
-  auto got = daily::read_days(ingestor.store().connection(), key, daily::Day(2000, 1, 1),
-                              daily::Day(2100, 1, 1));
+  auto got = ingestor.store().daily().days(key, daily::Day(2000, 1, 1), daily::Day(2100, 1, 1));
   REQUIRE(got.has_value());
   REQUIRE(got->size() == 1);
   REQUIRE(want.size() == 1);

@@ -17,6 +17,7 @@
 #include <utility>
 #include <vector>
 
+#include "../store/raw_connection.hpp"
 #include "../store/store_test_support.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/file_sources.hpp"

@@ -5,6 +5,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include "raw_connection.hpp"
 #include "stagewell/store.hpp"
 #include "store_test_support.hpp"
 
@@ -84,7 +85,7 @@ TEST_CASE("a failed commit stores neither the readings nor the progress, and los
   CHECK_FALSE(try_batch_b(store, site));
   CHECK(commits == 1);  // an I/O error is not retried: only a busy database is
   check_only_a(observe(dir.db()));
-  auto progress = store.committed_progress(kSource);
+  auto progress = store.progress().committed(kSource);
   REQUIRE(progress.has_value());
   REQUIRE(progress->has_value());
   CHECK((*progress)->byte_offset == 100);
@@ -140,8 +141,8 @@ TEST_CASE("a process killed in the middle of a batch leaves only what was commit
     // The child writes batch B and dies before committing it: no destructors, no rollback.
     auto store = Store::open(dir.db());
     if (!store) _exit(2);
-    auto key = store->ensure_site("raceway-a");
-    auto config = store->record_config(*key, R"({"id":"raceway-a"})", 0);
+    auto key = store->sites().ensure("raceway-a");
+    auto config = store->versions().record(*key, R"({"id":"raceway-a"})", 0);
     if (!key || !config) _exit(3);
     auto batch = store->begin();
     if (!batch) _exit(4);

@@ -3,6 +3,7 @@
 
 #include <regex>
 
+#include "raw_connection.hpp"
 #include "stagewell/store.hpp"
 #include "store_test_support.hpp"
 
@@ -70,12 +71,12 @@ TEST_CASE("re-opening changes nothing and keeps the data") {
   }
   Store again = test::open_store(dir.db());
   CHECK(again.schema_version() == highest_migration_number());
-  CHECK(again.count_readings() == 1);
+  CHECK(again.readings().count() == 1);
   auto raw = raw_connection(dir.db());
   CHECK(query_int(*raw, "SELECT count(*) FROM sqlite_schema") == objects);
   CHECK(query_int(*raw, "SELECT count(*) FROM flag_names") == 11);  // seeded once, not twice
   // The same id still names the same site.
-  CHECK(again.ensure_site("raceway-a")->value == query_int(*raw, "SELECT site_key FROM sites"));
+  CHECK(again.sites().ensure("raceway-a")->value == query_int(*raw, "SELECT site_key FROM sites"));
 }
 
 TEST_CASE("a database newer than the program is refused") {

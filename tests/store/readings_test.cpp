@@ -5,6 +5,7 @@
 #include <cmath>
 #include <limits>
 
+#include "raw_connection.hpp"
 #include "stagewell/store.hpp"
 #include "store_test_support.hpp"
 
@@ -37,7 +38,7 @@ TEST_CASE("a reading is stored once; the same reading again is a no-op") {
   CHECK(second->stored_stage == 0.42);
   REQUIRE(batch->commit().has_value());
 
-  CHECK(store.count_readings() == 1);
+  CHECK(store.readings().count() == 1);
   auto raw = raw_connection(dir.db());
   CHECK(query_int(*raw, "SELECT flags FROM readings") == 0);
   CHECK(query_int(*raw, "SELECT depth < 1.0 FROM readings") == 1);  // not the second's 9.0
@@ -64,7 +65,7 @@ TEST_CASE("a different stage for a stored time is a conflict and replaces nothin
 
   auto raw = raw_connection(dir.db());
   CHECK(query_text(*raw, "SELECT stage FROM discharge WHERE site = 'raceway-a'") == "0.42");
-  CHECK(store.count_readings() == 2);
+  CHECK(store.readings().count() == 2);
 }
 
 TEST_CASE("flags are ORed into a stored reading; an unknown reading reports false") {
@@ -102,7 +103,7 @@ TEST_CASE("the last N readings at or before a time, oldest first, of one site on
     }
     REQUIRE(batch->commit().has_value());
   }
-  auto recent = store.recent_readings(site.key, 5500, 3);
+  auto recent = store.readings().recent(site.key, 5500, 3);
   REQUIRE(recent.has_value());
   REQUIRE(recent->size() == 3);
   CHECK((*recent)[0].time_ms == 3000);
@@ -115,14 +116,14 @@ TEST_CASE("the last N readings at or before a time, oldest first, of one site on
   CHECK((*recent)[0].config == site.config);
   CHECK((*recent)[0].site == site.key);
   // At exactly a reading's time it is included; fewer readings than asked is fine.
-  auto early = store.recent_readings(site.key, 2000, 5);
+  auto early = store.readings().recent(site.key, 2000, 5);
   REQUIRE(early.has_value());
   REQUIRE(early->size() == 2);
   CHECK(early->back().time_ms == 2000);
-  CHECK(store.recent_readings(site.key, 999, 5)->empty());
+  CHECK(store.readings().recent(site.key, 999, 5)->empty());
 
-  CHECK(store.count_readings() == 20);
-  CHECK(store.count_readings(site.key) == 10);
+  CHECK(store.readings().count() == 20);
+  CHECK(store.readings().count(site.key) == 10);
 }
 
 TEST_CASE("a reading that is not finite is refused and spoils the batch") {
@@ -139,13 +140,13 @@ TEST_CASE("a reading that is not finite is refused and spoils the batch") {
   // A batch with a failed call must not commit its other writes (or progress past the failure).
   auto committed = batch->commit();
   REQUIRE_FALSE(committed.has_value());
-  CHECK(store.count_readings() == 0);
+  CHECK(store.readings().count() == 0);
   // The store is usable again.
   auto next = store.begin();
   REQUIRE(next.has_value());
   REQUIRE(next->insert(test::reading(site, 1000, 0.5)).has_value());
   REQUIRE(next->commit().has_value());
-  CHECK(store.count_readings() == 1);
+  CHECK(store.readings().count() == 1);
 }
 
 TEST_CASE("an uncommitted batch is rolled back; one batch at a time") {
@@ -156,10 +157,10 @@ TEST_CASE("an uncommitted batch is rolled back; one batch at a time") {
     auto batch = store.begin();
     REQUIRE(batch.has_value());
     CHECK_FALSE(store.begin().has_value());
-    CHECK_FALSE(store.ensure_site("feeder-canal").has_value());  // would join the batch
+    CHECK_FALSE(store.sites().ensure("feeder-canal").has_value());  // would join the batch
     REQUIRE(batch->insert(test::reading(site, 1000, 0.5)).has_value());
   }
-  CHECK(store.count_readings() == 0);
+  CHECK(store.readings().count() == 0);
   auto batch = store.begin();
   REQUIRE(batch.has_value());
   REQUIRE(batch->commit().has_value());
@@ -169,22 +170,22 @@ TEST_CASE("an uncommitted batch is rolled back; one batch at a time") {
 TEST_CASE("a configuration version: same text, same id; its hash is FNV-1a 64") {
   TempDir dir;
   Store store = test::open_store(dir.db());
-  const auto a = store.ensure_site("raceway-a");
-  const auto b = store.ensure_site("feeder-canal");
+  const auto a = store.sites().ensure("raceway-a");
+  const auto b = store.sites().ensure("feeder-canal");
   REQUIRE(a.has_value());
   REQUIRE(b.has_value());
   CHECK(*a != *b);
-  CHECK(store.ensure_site("raceway-a") == *a);
+  CHECK(store.sites().ensure("raceway-a") == *a);
 
   const std::string json = R"({"site":"raceway-a"})";
-  const auto first = store.record_config(*a, json, 1'700'000'000'000);
+  const auto first = store.versions().record(*a, json, 1'700'000'000'000);
   REQUIRE(first.has_value());
-  CHECK(store.record_config(*a, json, 1'800'000'000'000) == *first);
+  CHECK(store.versions().record(*a, json, 1'800'000'000'000) == *first);
   const auto changed =
-      store.record_config(*a, R"({"site":"raceway-a","n":0.013})", 1'800'000'000'000);
+      store.versions().record(*a, R"({"site":"raceway-a","n":0.013})", 1'800'000'000'000);
   REQUIRE(changed.has_value());
   CHECK(*changed != *first);
-  const auto other_site = store.record_config(*b, json, 1'800'000'000'000);
+  const auto other_site = store.versions().record(*b, json, 1'800'000'000'000);
   REQUIRE(other_site.has_value());
   CHECK(*other_site != *first);
 
@@ -207,7 +208,7 @@ TEST_CASE("a read-only store refuses to write") {
   auto batch = reader->begin();
   REQUIRE_FALSE(batch.has_value());
   CHECK(batch.error().kind == ErrorKind::invalid_argument);
-  CHECK_FALSE(reader->ensure_site("raceway-a").has_value());
+  CHECK_FALSE(reader->sites().ensure("raceway-a").has_value());
 }
 
 }  // namespace

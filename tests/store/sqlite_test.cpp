@@ -1,9 +1,10 @@
 // The SQLite wrapper: errors become stagewell::Error, cached statements are reused and released.
-#include "stagewell/sqlite.hpp"
+#include "store/sqlite.hpp"
 
 #include <doctest/doctest.h>
 #include <sqlite3.h>
 
+#include "raw_connection.hpp"
 #include "store_test_support.hpp"
 
 namespace stagewell {

@@ -1,5 +1,5 @@
-// Helpers shared by the store tests: a scratch directory, a site with a configuration, a second
-// raw connection for looking at the file from outside the store, and a "fail the Nth step" hook.
+// Helpers shared by the store tests: a scratch directory, a site with a configuration, and a "fail
+// the Nth step" hook. A raw connection for looking at the file from outside: raw_connection.hpp.
 #pragma once
 
 #include <doctest/doctest.h>
@@ -11,7 +11,6 @@
 #include <string>
 #include <string_view>
 
-#include "stagewell/sqlite.hpp"
 #include "stagewell/store.hpp"
 
 namespace stagewell::test {
@@ -50,10 +49,10 @@ struct Site {
 };
 
 inline Site add_site(Store& store, std::string_view id) {
-  auto key = store.ensure_site(id);
+  auto key = store.sites().ensure(id);
   REQUIRE_MESSAGE(key.has_value(), key.error().message);
   const std::string json = "{\"id\":\"" + std::string(id) + "\"}";
-  auto config = store.record_config(*key, json, 1'700'000'000'000);
+  auto config = store.versions().record(*key, json, 1'700'000'000'000);
   REQUIRE_MESSAGE(config.has_value(), config.error().message);
   return Site{*key, *config};
 }
@@ -68,29 +67,8 @@ inline StoredReading reading(const Site& site, std::int64_t time_ms, double stag
                        .config = site.config};
 }
 
-// A connection of its own to the database file, outside the store.
-inline std::unique_ptr<sqlite::Connection> raw_connection(
-    const std::filesystem::path& path,
-    sqlite::Connection::Access access = sqlite::Connection::Access::read_write_create) {
-  auto connection = sqlite::Connection::open(path, access);
-  REQUIRE_MESSAGE(connection.has_value(), connection.error().message);
-  return std::move(*connection);
-}
-
-inline std::int64_t query_int(sqlite::Connection& connection, std::string_view sql) {
-  auto value = connection.query_int64(sql);
-  REQUIRE_MESSAGE(value.has_value(), value.error().message);
-  return *value;
-}
-
-inline std::string query_text(sqlite::Connection& connection, std::string_view sql) {
-  auto value = connection.query_text(sql);
-  REQUIRE_MESSAGE(value.has_value(), value.error().message);
-  return *value;
-}
-
-// Makes the Nth sqlite3_step (counting from 1) on a connection fail with `code`; every other step
-// runs normally. Copies share the count.
+// Makes the Nth step of a statement (counting from 1) on a connection fail with `code`; every other
+// step runs normally. Copies share the count.
 class FailNthStep {
  public:
   FailNthStep(int n, int code) : n_(n), code_(code), calls_(std::make_shared<int>(0)) {}

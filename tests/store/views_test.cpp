@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+#include "raw_connection.hpp"
 #include "stagewell/flags.hpp"
 #include "stagewell/store.hpp"
 #include "store_test_support.hpp"

@@ -4,10 +4,10 @@
 //
 // SiteAlarms is a pure evaluator: it reads no clock and touches no database. The ingest pipeline
 // feeds it each stored reading in time order and the daemon calls tick() every few seconds; both
-// return the alarms raised and cleared, which the caller stores (record_event) in the same
-// transaction as the readings. After a restart the evaluator is seeded from the stored readings
-// and told which alarms the store holds open, so an alarm open before the restart stays open and
-// is not raised a second time.
+// return the alarms raised and cleared, which the caller stores in the same transaction as the
+// readings (AlarmTable, alarm_table.hpp). After a restart the evaluator is seeded from the stored
+// readings and told which alarms the store holds open, so an alarm open before the restart stays
+// open and is not raised a second time.
 //
 // What each kind compares (units of value and threshold, as in the `alarms` view):
 //   low_flow   discharge below `below`, m^3/s or ft^3/s; clears above below + hysteresis
@@ -38,18 +38,11 @@
 #include <string_view>
 #include <vector>
 
+#include "stagewell/alarm_rows.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/flags.hpp"
-#include "stagewell/result.hpp"
-#include "stagewell/sqlite.hpp"
-#include "stagewell/store.hpp"
 
 namespace stagewell::alarms {
-
-// The names are the `kind` column of the `alarms` view: never rename one.
-enum class AlarmKind { low_flow, high_flow, stale, rising };
-std::string_view name(AlarmKind kind);
-std::optional<AlarmKind> parse_kind(std::string_view text);
 
 // One stored reading, as the evaluator sees it.
 struct AlarmReading {
@@ -57,26 +50,6 @@ struct AlarmReading {
   double stage = 0.0;               // the raw reading, site's stage units
   std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
   Flags flags;
-};
-
-// An alarm raised or cleared.
-struct AlarmEvent {
-  enum class Change { raised, cleared };
-  AlarmKind kind = AlarmKind::low_flow;
-  Change change = Change::raised;
-  std::int64_t time_ms = 0;  // when: a reading's time, or the clock at a tick (stale)
-  double value = 0.0;        // the value that raised (or cleared) it; unit: see the table above
-  double threshold = 0.0;    // the configured level it was compared with (below/above/after/rate)
-};
-
-// An alarm as stored (the `alarms` view's row).
-struct AlarmRecord {
-  std::string site;
-  AlarmKind kind = AlarmKind::low_flow;
-  std::int64_t raised_ms = 0;
-  std::optional<std::int64_t> cleared_ms;  // empty while open
-  double value = 0.0;
-  double threshold = 0.0;
 };
 
 class SiteAlarms {
@@ -123,15 +96,6 @@ class SiteAlarms {
   bool stale_open_ = false;
   std::deque<StagePoint> window_;  // readings within the rising window, oldest first
 };
-
-// Writes an event in the open transaction of `connection`: a raise adds an open alarm, a clear
-// closes the site's open alarm of that kind (nothing when none is open).
-Result<void> record_event(sqlite::Connection& connection, SiteKey site, const AlarmEvent& event);
-
-// The alarms open now (cleared IS NULL), of every site, ordered by site and raise time.
-Result<std::vector<AlarmRecord>> open_alarms(Store& store);
-// The kinds open for one site (to restore a SiteAlarms).
-Result<std::vector<AlarmKind>> open_kinds(sqlite::Connection& connection, SiteKey site);
 
 // Logs an event: warn when raised, info when cleared, with site, kind, value and threshold in
 // their units (`units`: the configuration's system; `stage_units`: the site's).

@@ -27,8 +27,6 @@
 // milliseconds since the Unix epoch, UTC.
 #pragma once
 
-#include <cctz/civil_time.h>
-
 #include <cstdint>
 #include <optional>
 #include <span>
@@ -37,20 +35,13 @@
 #include <vector>
 
 #include "stagewell/config.hpp"
+#include "stagewell/daily_rows.hpp"
 #include "stagewell/flags.hpp"
 #include "stagewell/result.hpp"
-#include "stagewell/sqlite.hpp"
 #include "stagewell/store.hpp"
 #include "stagewell/timestamp.hpp"
 
 namespace stagewell::daily {
-
-using Day = cctz::civil_day;
-
-// 'YYYY-MM-DD'.
-std::string format_day(Day day);
-// Parses 'YYYY-MM-DD' (a real date); nullopt otherwise.
-std::optional<Day> parse_day(std::string_view text);
 
 // The local calendar days of one time zone. Copyable; cheap.
 class DayCalendar {
@@ -76,41 +67,6 @@ struct DayRules {
 
 DayRules rules_for(const SiteConfig& site, const DailySpec& daily);
 
-// A stored reading as the figures need it.
-struct DayReading {
-  std::int64_t time_ms = 0;
-  std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
-  Flags flags;
-};
-
-struct FlagCount {
-  Flag flag = Flag::gap;
-  std::int64_t readings = 0;
-  friend bool operator==(const FlagCount&, const FlagCount&) = default;
-};
-
-struct DayFigures {
-  Day day;
-  std::int64_t start_ms = 0;
-  std::int64_t end_ms = 0;
-  std::optional<double> volume;          // m^3 or ft^3
-  std::optional<double> mean_discharge;  // m^3/s or ft^3/s
-  std::optional<double> min_discharge;
-  std::optional<std::int64_t> min_time_ms;
-  std::optional<double> max_discharge;
-  std::optional<std::int64_t> max_time_ms;
-  std::int64_t covered_ms = 0;
-  double coverage = 0.0;  // covered_ms / (end_ms - start_ms)
-  std::int64_t readings = 0;
-  std::int64_t flagged = 0;
-  std::vector<FlagCount> flag_counts;  // in flag order; only flags that occur
-
-  std::int64_t length_ms() const { return end_ms - start_ms; }
-  bool complete() const { return covered_ms == end_ms - start_ms; }
-  bool empty() const { return readings == 0 && covered_ms == 0; }  // such a day has no row
-  friend bool operator==(const DayFigures&, const DayFigures&) = default;
-};
-
 // The figures of one day.
 // REQUIRES: `readings` in strictly increasing time order, holding every reading of the site timed
 // in [start_ms - max_gap_ms, end_ms + max_gap_ms] (more is harmless).
@@ -122,50 +78,23 @@ DayFigures compute_day(std::span<const DayReading> readings, Day day, const DayC
 std::vector<DayFigures> compute_days(std::span<const DayReading> readings,
                                      const DayCalendar& calendar, const DayRules& rules);
 
-// ---- The tables (schema/002_daily.sql) ----
-
-// The key of site `id`, when the database knows it.
-Result<std::optional<SiteKey>> find_site(sqlite::Connection& connection, std::string_view id);
-
-// The site's readings timed in [from_ms, to_ms], in time order.
-Result<std::vector<DayReading>> read_readings(sqlite::Connection& connection, SiteKey site,
-                                              std::int64_t from_ms, std::int64_t to_ms);
-// The same into `out`, which is cleared first and whose capacity is reused: callers that read
-// one stretch after another keep one buffer (growing a vector of a week of readings anew each
-// time costs more than reading them).
-Result<void> read_readings(sqlite::Connection& connection, SiteKey site, std::int64_t from_ms,
-                           std::int64_t to_ms, std::vector<DayReading>& out);
-// The times of the site's first and last reading; nullopt when it has none.
-Result<std::optional<std::pair<std::int64_t, std::int64_t>>> reading_span(
-    sqlite::Connection& connection, SiteKey site);
-
-// Stores one day's figures, replacing what was stored; deletes the row of an empty day.
-// REQUIRES: a write transaction is open on `connection`.
-Result<void> write_day(sqlite::Connection& connection, SiteKey site, const DayFigures& figures);
-
-// The stored figures of days `from` to `to` (inclusive), in day order.
-Result<std::vector<DayFigures>> read_days(sqlite::Connection& connection, SiteKey site, Day from,
-                                          Day to);
-// The first and last day with stored figures; nullopt when the site has none.
-Result<std::optional<std::pair<Day, Day>>> stored_day_range(sqlite::Connection& connection,
-                                                            SiteKey site);
+// ---- Stored figures (the store's DailyTable keeps them) ----
 
 // The settings figures are computed with, as stored in daily_settings: any change to them means
 // the stored figures are stale.
 std::string settings_text(const DayCalendar& calendar, units::System units, const DayRules& rules);
 // True when the site's stored figures were computed with `settings`.
-Result<bool> figures_current(sqlite::Connection& connection, SiteKey site,
-                             std::string_view settings);
+Result<bool> figures_current(Store& store, SiteKey site, std::string_view settings);
 
 // Replaces all of a site's figures with a full recomputation from its readings, and records the
-// settings. REQUIRES: a write transaction is open on `connection`.
-Result<void> recompute_site(sqlite::Connection& connection, SiteKey site,
+// settings, in `batch`. REQUIRES: `batch` is open on `store`.
+Result<void> recompute_site(Store& store, WriteBatch& batch, SiteKey site,
                             const DayCalendar& calendar, const DayRules& rules,
                             std::string_view settings);
 
 // Days `from` to `to` computed from the readings, without storing anything (for a reader whose
 // stored figures are stale). Leaves out empty days.
-Result<std::vector<DayFigures>> compute_range(sqlite::Connection& connection, SiteKey site,
+Result<std::vector<DayFigures>> compute_range(Store& store, SiteKey site,
                                               const DayCalendar& calendar, const DayRules& rules,
                                               Day from, Day to);
 

@@ -9,9 +9,10 @@
 //
 // Readings the batch itself stored after the latest reading stored before it (the usual case:
 // data arriving in time order) are taken from memory rather than read back from the database;
-// everything else is read from the database. The keeper knows which is which only while it is
-// the database's one writer: when another connection has committed in between (PRAGMA
-// data_version), it reads everything back once.
+// everything else is read from the database. The keeper knows which is which only while nothing
+// but its own batches changes the stored readings: its owner asks the store
+// (Store::stored_readings_changed) and calls forget() when something else did — another process,
+// or a recomputation on the same store — so that it reads everything back once.
 //
 // Not thread-safe: it belongs to the Ingestor that owns the store.
 #pragma once
@@ -24,7 +25,6 @@
 #include "stagewell/config.hpp"
 #include "stagewell/daily.hpp"
 #include "stagewell/result.hpp"
-#include "stagewell/sqlite.hpp"
 #include "stagewell/store.hpp"
 
 namespace stagewell::daily {
@@ -45,14 +45,14 @@ class DailyKeeper {
   // `flags` were added to the stored reading of `site` at `time_ms` in the open batch.
   void flagged(SiteKey site, std::int64_t time_ms, Flags flags);
 
-  // Recomputes every day the changes since the last update() or forget() can affect, and
-  // forgets the changes. REQUIRES: a write transaction is open on `connection`, holding those
-  // changes. On failure the caller must roll back (and call forget()).
-  Result<void> update(sqlite::Connection& connection);
+  // Recomputes every day the changes since the last update() or forget() can affect, in `batch`,
+  // and forgets the changes. REQUIRES: `batch` is open on `store`, holding those changes. On
+  // failure the batch cannot be committed (the caller rolls it back and calls forget()).
+  Result<void> update(Store& store, WriteBatch& batch);
 
   // Forgets the changes and what is known of the stored readings: the batch was rolled back, its
-  // commit failed, or stored readings were rewritten on this connection by something other than
-  // this keeper (another connection's commits are noticed by themselves, via data_version).
+  // commit failed, or the stored readings changed otherwise than through this keeper's batches
+  // (Store::stored_readings_changed).
   void forget();
 
   const DayCalendar& calendar() const { return calendar_; }
@@ -73,20 +73,19 @@ class DailyKeeper {
   };
   DailyKeeper(DayCalendar calendar, units::System units, DailySpec daily)
       : calendar_(std::move(calendar)), units_(units), daily_(daily) {}
-  Result<void> update_site(sqlite::Connection& connection, SiteKey key, Site& site);
+  Result<void> update_site(Store& store, WriteBatch& batch, SiteKey key, Site& site);
   // The readings of [from_ms, to_ms] as the open transaction holds them, into buffer_.
   // Keeps, as the site's tail, the readings of buffer_ the next in-order batch will need.
   void keep_tail(Site& site, std::int64_t gathered_from_ms, std::int64_t gathered_to_ms,
                  bool gathered);
-  Result<void> gather(sqlite::Connection& connection, SiteKey key, Site& site, std::int64_t from_ms,
+  Result<void> gather(Store& store, SiteKey key, Site& site, std::int64_t from_ms,
                       std::int64_t to_ms);
 
   DayCalendar calendar_;
   units::System units_;
   DailySpec daily_;
   std::map<SiteKey, Site> sites_;
-  std::vector<DayReading> buffer_;            // reused by every update (see read_readings)
-  std::optional<std::int64_t> data_version_;  // PRAGMA data_version after our last update
+  std::vector<DayReading> buffer_;  // reused by every update (ReadingsTable::day_readings)
 };
 
 }  // namespace stagewell::daily

@@ -10,6 +10,13 @@
 // — whichever comes first — so that throughput stays high and a live reading is visible within
 // about a second.
 //
+// The Ingestor keeps three copies of recent stored readings in memory: each site's checks' window,
+// its alarms' replay, and the daily figures' copy of the open day. Whenever the stored readings
+// change otherwise than through its own batches — another process's commits, or readings rewritten
+// through the same store (a recomputation, recomputation.hpp) — it reads all three again. It asks
+// the store (Store::stored_readings_changed) in one place: when it opens a batch, and before it
+// checks a reading while none is open. Nobody needs to tell it.
+//
 // Not thread-safe: it belongs to the thread that runs the sources (the daemon's io_context).
 #pragma once
 
@@ -107,11 +114,6 @@ class Ingestor {
   Result<void> commit();
   // Drops the open batch and restores the check state from the store (after a failed commit).
   Result<void> reset();
-  // Stored readings were rewritten on this Ingestor's store connection by something else (a
-  // recomputation, recomputation.hpp): what it keeps of them in memory — the daily figures' copy of
-  // the open day, the checks' and alarms' recent readings — is read again. REQUIRES: no batch is
-  // open (commit() first).
-  Result<void> stored_readings_rewritten();
 
   // Called after every commit attempt: true when the batch is stored, false when it was dropped
   // (failed commit or reset()). A socket source acknowledges what it fed before a successful
@@ -136,11 +138,16 @@ class Ingestor {
   struct Site;
   struct State;
   explicit Ingestor(std::unique_ptr<State> state);
+  // The open batch, opening one (and refreshing the copies, if the stored readings changed) when
+  // none is.
   Result<WriteBatch*> batch();
+  // The one place the in-memory copies of stored readings are refreshed: when the store says they
+  // changed since the last look (or always, when `force`), the checks' and alarms' state is
+  // rebuilt from the store and the daily keeper forgets its copy.
+  // REQUIRES: no batch open, or one just opened (nothing of it in the copies yet).
+  Result<void> refresh_copies(bool force = false);
   // Rebuilds each site's check state and alarm evaluator from the store.
   Result<void> reload_site_state();
-  // Reloads the site state when another connection has committed since it was taken.
-  Result<void> notice_other_writers();
   // A record whose (site, time) is stored with `stored_stage`: a no-op when the stage is the
   // same, a 'conflict' reject when not (stored values are never replaced).
   Result<ReadingOutcome> repeat(const Record& record, double stored_stage,

@@ -21,25 +21,14 @@
 #include <vector>
 
 #include "stagewell/daily.hpp"
-#include "stagewell/result.hpp"
-#include "stagewell/sqlite.hpp"
+#include "stagewell/readings_table.hpp"
 #include "stagewell/statistics.hpp"
-#include "stagewell/store.hpp"
 #include "stagewell/timestamp.hpp"
 
 namespace stagewell::plot {
 
-// A stored reading as the hydrograph needs it.
-struct PlotReading {
-  std::int64_t time_ms = 0;
-  double stage = 0.0;               // stage units, as read
-  std::optional<double> discharge;  // stored unit (m^3/s or ft^3/s); empty when out_of_range
-  Flags flags;
-};
-
-// The site's readings timed in [from_ms, to_ms), in time order.
-Result<std::vector<PlotReading>> read_plot_readings(sqlite::Connection& connection, SiteKey site,
-                                                    std::int64_t from_ms, std::int64_t to_ms);
+// PlotReading, a stored reading as the hydrograph needs it, is the store's (readings_table.hpp):
+// ReadingsTable::plot_readings reads them.
 
 struct HydrographSpec {
   std::string title;   // e.g. "raceway-a (Hatchery raceway A outlet)"

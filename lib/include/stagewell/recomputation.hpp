@@ -4,9 +4,9 @@
 // of the local days they touch are refreshed. Each recomputation of a site is recorded in the
 // `recomputation_runs` table (the `recomputations` view).
 //
-// Work is done in bounded steps, one transaction each, so that a caller sharing the database
-// connection (the daemon's ingest) can commit its own batches between them. The stored raw stage
-// is never changed.
+// Work is done in bounded steps, one transaction each, so that a caller sharing the store (the
+// daemon's ingest) can commit its own batches between them; it notices the rewritten readings by
+// itself (Store::stored_readings_changed). The stored raw stage is never changed.
 //
 // The checks are re-run in time order over the period, seeded with the readings before it; the
 // arrival-dependent flags `late` and `future` are kept as stored (a `future` reading changes no

@@ -16,6 +16,7 @@ enum class ErrorKind {
   not_found,         // a file, site or record that does not exist
   io,                // the operating system said no
   database,          // SQLite said no
+  cancelled,         // a wait for the database was stopped on request (StoreOptions, LockWait)
 };
 
 struct Error {

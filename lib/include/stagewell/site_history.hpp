@@ -34,13 +34,7 @@ struct HistorySegment {
   std::size_t hydraulics = 0;                   // internal: which channel and rating
 };
 
-// What a reading's stored values are.
-struct ComputedReading {
-  double depth = 0.0;               // configuration length unit (m or ft)
-  std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
-  Flags flags;                      // the checks' flags plus the hydraulic ones
-  ConfigVersionId config;
-};
+// ComputedReading, what a reading's stored values are, is the store's (store_types.hpp).
 
 class SiteHistory {
  public:

@@ -3,9 +3,9 @@
 // method, target and Accept header in, a complete answer out. daemon/stagewelld/http_*.cpp carry
 // it over Boost.Beast.
 //
-// Reads come from the database over a read-only connection of its own (Store::open_read_only), so
-// a request never takes the writer's lock; every query is bounded (one site's rows over a limited
-// range, with a row limit). Nothing a request does changes anything.
+// Reads come from the database through a StoreReader (store_reader.hpp): a read-only connection
+// of its own, so a request never takes the writer's lock; every query is bounded (one site's rows
+// over a limited range, with a row limit). Nothing a request does changes anything.
 //
 // Not thread-safe: it belongs to the thread that runs the service's io_context.
 #pragma once

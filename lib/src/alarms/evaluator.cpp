@@ -1,6 +1,5 @@
 // The alarm evaluator of one site (alarms.hpp). Pure: times come with the readings and ticks.
 #include <algorithm>
-#include <array>
 #include <cmath>
 
 #include "stagewell/alarms.hpp"
@@ -8,22 +7,11 @@
 namespace stagewell::alarms {
 namespace {
 
-constexpr std::array<std::string_view, 4> kNames{"low_flow", "high_flow", "stale", "rising"};
-
 std::int64_t to_ms(double seconds) { return std::llround(seconds * 1000.0); }
 
 constexpr double kMsPerHour = 3'600'000.0;
 
 }  // namespace
-
-std::string_view name(AlarmKind kind) { return kNames[static_cast<std::size_t>(kind)]; }
-
-std::optional<AlarmKind> parse_kind(std::string_view text) {
-  for (std::size_t i = 0; i < kNames.size(); ++i) {
-    if (kNames[i] == text) return static_cast<AlarmKind>(i);
-  }
-  return std::nullopt;
-}
 
 void SiteAlarms::Threshold::step(AlarmKind kind, std::int64_t time_ms, double value,
                                  std::vector<AlarmEvent>& events) {

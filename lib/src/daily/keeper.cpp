@@ -10,9 +10,9 @@ namespace {
 
 constexpr std::int64_t kNoReadings = std::numeric_limits<std::int64_t>::min();
 
-// The site's latest reading time as the connection sees it; kNoReadings when it has none.
-Result<std::int64_t> latest_reading_ms(sqlite::Connection& connection, SiteKey site) {
-  auto span = reading_span(connection, site);
+// The site's latest reading time as the store sees it; kNoReadings when it has none.
+Result<std::int64_t> latest_reading_ms(Store& store, SiteKey site) {
+  auto span = store.readings().span(site);
   if (!span) return std::unexpected(span.error());
   return *span ? (*span)->second : kNoReadings;
 }
@@ -31,27 +31,18 @@ Result<void> DailyKeeper::add_site(Store& store, SiteKey key, const SiteConfig& 
   Site& entry = sites_[key];
   entry.rules = rules_for(site, daily_);
   const std::string settings = settings_text(calendar_, units_, entry.rules);
-  auto current = figures_current(store.connection(), key, settings);
+  auto current = figures_current(store, key, settings);
   if (!current) return std::unexpected(current.error());
   if (!*current) {
     auto batch = store.begin();
     if (!batch) return std::unexpected(batch.error());
-    auto done = recompute_site(batch->connection(), key, calendar_, entry.rules, settings);
+    auto done = recompute_site(store, *batch, key, calendar_, entry.rules, settings);
     if (!done) return done;  // the batch rolls back as it goes out of scope
     if (auto committed = batch->commit(); !committed) return committed;
   }
-  // What is stored now, so that the first batch need not read its own readings back. The version
-  // is read first: a commit by another connection after it shows at the next update.
-  auto version = store.connection().query_int64("PRAGMA data_version");
-  if (!version) return std::unexpected(version.error());
-  if (data_version_ && *data_version_ != *version) {
-    for (auto& [other_key, other] : sites_) {
-      other.stored_until_ms.reset();
-      other.tail_from_ms.reset();
-    }
-  }
-  data_version_ = *version;
-  auto latest = latest_reading_ms(store.connection(), key);
+  // What is stored now, so that the first batch need not read its own readings back. A commit by
+  // another connection after this is the owner's to notice (forget()).
+  auto latest = latest_reading_ms(store, key);
   if (!latest) return std::unexpected(latest.error());
   entry.stored_until_ms = *latest;
   entry.tail.clear();  // nothing read yet: the first update reads the open day back
@@ -69,8 +60,8 @@ void DailyKeeper::flagged(SiteKey site, std::int64_t time_ms, Flags flags) {
   if (found != sites_.end()) found->second.reflagged.emplace_back(time_ms, flags);
 }
 
-Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Site& site,
-                                 std::int64_t from_ms, std::int64_t to_ms) {
+Result<void> DailyKeeper::gather(Store& store, SiteKey key, Site& site, std::int64_t from_ms,
+                                 std::int64_t to_ms) {
   // Up to the latest reading stored before this batch the database has everything, this batch's
   // readings and flags included. After it, every reading is one of this batch's (site.added,
   // sorted), which only need the flags added since they were stored.
@@ -84,7 +75,7 @@ Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Si
                                        DayReading{std::min(to_ms, until), {}, {}}, by_time);
     buffer_.assign(first, last);
   } else if (from_ms <= until) {
-    auto read = read_readings(connection, key, from_ms, std::min(to_ms, until), buffer_);
+    auto read = store.readings().day_readings(key, from_ms, std::min(to_ms, until), buffer_);
     if (!read) return read;
   } else {
     buffer_.clear();
@@ -98,7 +89,7 @@ Result<void> DailyKeeper::gather(sqlite::Connection& connection, SiteKey key, Si
   return {};
 }
 
-Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey key, Site& site) {
+Result<void> DailyKeeper::update_site(Store& store, WriteBatch& batch, SiteKey key, Site& site) {
   auto& added = site.added;
   if (!std::is_sorted(added.begin(), added.end(), by_time)) {  // usually in time order already
     std::stable_sort(added.begin(), added.end(), by_time);
@@ -142,19 +133,18 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
     listed_until_ms = calendar_.start_ms(runs.back().second + 1);
   }
 
+  auto table = store.daily();
   std::int64_t gathered_from_ms = 0;  // the range the last run gathered into buffer_
   std::int64_t gathered_to_ms = 0;
   for (const auto& [first, last] : runs) {
     // One gathering covers the run and the max_gap around it.
     gathered_from_ms = calendar_.start_ms(first) - gap;
     gathered_to_ms = calendar_.start_ms(last + 1) + gap;
-    auto read = gather(connection, key, site, gathered_from_ms, gathered_to_ms);
+    auto read = gather(store, key, site, gathered_from_ms, gathered_to_ms);
     if (!read) return read;
     for (Day day = first; day <= last; ++day) {
-      if (auto done = write_day(connection, key, compute_day(buffer_, day, calendar_, site.rules));
-          !done) {
-        return done;
-      }
+      const DayFigures figures = compute_day(buffer_, day, calendar_, site.rules);
+      if (auto done = table.write_day(batch, key, figures); !done) return done;
     }
   }
 
@@ -163,7 +153,7 @@ Result<void> DailyKeeper::update_site(sqlite::Connection& connection, SiteKey ke
     if (!added.empty())
       site.stored_until_ms = std::max(*site.stored_until_ms, added.back().time_ms);
   } else {
-    auto latest = latest_reading_ms(connection, key);
+    auto latest = latest_reading_ms(store, key);
     if (!latest) return std::unexpected(latest.error());
     site.stored_until_ms = *latest;
   }
@@ -194,28 +184,14 @@ void DailyKeeper::keep_tail(Site& site, std::int64_t gathered_from_ms, std::int6
   site.tail_from_ms = from;
 }
 
-Result<void> DailyKeeper::update(sqlite::Connection& connection) {
-  // Another connection committed since our last update: what we know of the stored readings may
-  // be out of date, so read everything back this time.
-  auto version = connection.query_int64("PRAGMA data_version");
-  if (!version) {
-    forget();
-    return std::unexpected(version.error());
-  }
-  if (data_version_ != *version) {
-    for (auto& [key, site] : sites_) {
-      site.stored_until_ms.reset();
-      site.tail_from_ms.reset();
-    }
-  }
+Result<void> DailyKeeper::update(Store& store, WriteBatch& batch) {
   for (auto& [key, site] : sites_) {
     if (site.added.empty() && site.reflagged.empty()) continue;
-    if (auto done = update_site(connection, key, site); !done) {
+    if (auto done = update_site(store, batch, key, site); !done) {
       forget();
       return done;
     }
   }
-  data_version_ = *version;
   return {};
 }
 

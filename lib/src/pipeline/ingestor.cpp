@@ -93,9 +93,12 @@ struct Ingestor::State {
   std::vector<CommitObserver> observers;
   std::optional<daily::DailyKeeper> daily;  // empty when options.keep_daily is off
   std::int64_t opened_ms = 0;               // when the Ingestor was opened (alarms: stale)
-  // PRAGMA data_version when the site state was last taken from the store: it changes when
-  // another connection (`stagewell ingest` or `recompute` beside the service) commits.
-  std::optional<std::int64_t> data_version;
+  // What the copies of stored readings (checks, alarms, daily keeper) were last taken from: the
+  // store says when the stored readings changed since (refresh_copies()).
+  ReadingsMark readings_seen;
+  // Counts refreshes of the copies, so that work done on them before a batch was opened can be
+  // done again when opening it refreshed them.
+  std::int64_t refreshes = 0;
   // Alarm events written in the open batch, logged once it commits (never when it rolls back).
   std::vector<std::pair<const Site*, alarms::AlarmEvent>> alarm_log;
   std::vector<alarms::AlarmEvent> alarm_scratch;  // reused for every reading
@@ -119,7 +122,8 @@ namespace {
 
 Result<void> seed_checker(Store& store, SiteKey key, SiteChecker& checker,
                           std::optional<std::int64_t>& newest_ms) {
-  auto stored = store.recent_readings(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
+  auto stored =
+      store.readings().recent(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
   if (!stored) return std::unexpected(stored.error());
   std::vector<PastReading> past;
   past.reserve(stored->size());
@@ -139,14 +143,15 @@ Result<void> restore_alarms(Store& store, SiteKey key, const SiteConfig& config,
                             std::int64_t started_ms, std::optional<alarms::SiteAlarms>& out) {
   out.reset();
   if (!config.alarms.any()) return {};
-  auto stored = store.recent_readings(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
+  auto stored =
+      store.readings().recent(key, std::numeric_limits<std::int64_t>::max(), kSeedReadings);
   if (!stored) return std::unexpected(stored.error());
   std::vector<alarms::AlarmReading> past;
   past.reserve(stored->size());
   for (const auto& reading : *stored) {
     past.push_back({reading.time_ms, reading.stage, reading.discharge, reading.flags});
   }
-  auto open = alarms::open_kinds(store.connection(), key);
+  auto open = store.alarms().open_kinds(key);
   if (!open) return std::unexpected(open.error());
   out.emplace(config.alarms, started_ms);
   out->restore(past, *open);
@@ -164,9 +169,9 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
   state->opened_ms = now;
   // Before the site state is read from the store, so that a commit by another writer while it is
   // being read shows as a change.
-  auto version = state->store.connection().query_int64("PRAGMA data_version");
-  if (!version) return std::unexpected(version.error());
-  state->data_version = *version;
+  if (auto looked = state->store.stored_readings_changed(state->readings_seen); !looked) {
+    return std::unexpected(looked.error());
+  }
   if (options.keep_daily) {
     auto keeper = daily::DailyKeeper::create(state->config);
     if (!keeper) return std::unexpected(keeper.error());
@@ -174,7 +179,7 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
   }
   for (const auto& site_config : state->config.sites) {
     auto site = std::make_unique<Site>(site_config);
-    auto key = state->store.ensure_site(site_config.id);
+    auto key = state->store.sites().ensure(site_config.id);
     if (!key) return std::unexpected(key.error());
     site->key = *key;
     auto history = SiteHistory::open(state->store, *key, site_config, state->config.units, now);
@@ -220,13 +225,21 @@ Result<WriteBatch*> Ingestor::batch() {
     state_->batch.emplace(std::move(*batch));
     state_->batch_started_ms = state_->clock();
     state_->batch_readings = 0;
+    // The write lock is held from here to the commit: no other connection can change the stored
+    // readings in between, so what the copies are checked against now holds for the whole batch.
+    if (auto refreshed = refresh_copies(); !refreshed) {
+      state_->batch.reset();  // rolls back (nothing written yet)
+      return std::unexpected(refreshed.error());
+    }
   }
   return &*state_->batch;
 }
 
 Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosition& at) {
-  if (!state_->batch) {  // between batches: has another process written readings meanwhile?
-    if (auto noticed = notice_other_writers(); !noticed) return std::unexpected(noticed.error());
+  // Between batches: a repeat of a stored reading is settled without opening one, so the copies
+  // must be current before it is looked at.
+  if (!state_->batch) {
+    if (auto refreshed = refresh_copies(); !refreshed) return std::unexpected(refreshed.error());
   }
   const auto found = state_->sites.find(record.site);
   if (found == state_->sites.end()) {
@@ -240,7 +253,7 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
   // would be a phantom neighbour (a false spike on the stored reading, a false unsteady on the
   // next). Readings in time order are later than everything stored and skip the look-up.
   if (site.newest_ms && record.time_ms <= *site.newest_ms) {
-    auto stored_stage = state_->store.stored_stage(site.key, record.time_ms);
+    auto stored_stage = state_->store.readings().stage_at(site.key, record.time_ms);
     if (!stored_stage) return std::unexpected(stored_stage.error());
     if (*stored_stage) return repeat(record, **stored_stage, at);
   }
@@ -258,6 +271,13 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
     }
     return rejected;
   }
+
+  // The batch is opened before the checks change any state: opening it may refresh the copies (a
+  // commit by another process just before), and then this reading is taken again from the top.
+  const std::int64_t refreshes = state_->refreshes;
+  auto batch = this->batch();
+  if (!batch) return std::unexpected(batch.error());
+  if (state_->refreshes != refreshes) return reading(record, at);
 
   // The checks in force at the reading's time (they change only at a change of the history).
   if (const ChecksSpec& in_force = site.history->segment_at(record.time_ms).keys->checks;
@@ -281,8 +301,6 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
   out.depth = computed.depth;
   out.discharge = computed.discharge;
 
-  auto batch = this->batch();
-  if (!batch) return std::unexpected(batch.error());
   auto inserted = (*batch)->insert(out);
   if (!inserted) return std::unexpected(inserted.error());
   auto& pending = state_->pending;
@@ -302,7 +320,7 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
         site.alarms->reading({out.time_ms, out.stage, out.discharge, out.flags}, state_->clock(),
                              events);
         for (const auto& event : events) {
-          if (auto kept = alarms::record_event((*batch)->connection(), site.key, event); !kept) {
+          if (auto kept = state_->store.alarms().record(**batch, site.key, event); !kept) {
             return std::unexpected(kept.error());
           }
           state_->alarm_log.emplace_back(&site, event);
@@ -386,7 +404,7 @@ Result<void> Ingestor::commit() {
   // Daily figures: recompute the (site, local day)s this batch's readings touched, inside its
   // transaction, so the figures are committed with the readings or not at all.
   if (state_->daily) {
-    if (auto updated = state_->daily->update(state_->batch->connection()); !updated) {
+    if (auto updated = state_->daily->update(state_->store, *state_->batch); !updated) {
       state_->batch.reset();  // rolls back
       state_->clear_pending();
       state_->alarm_log.clear();
@@ -422,28 +440,20 @@ Result<void> Ingestor::reset() {
   state_->clear_pending();
   state_->alarm_log.clear();
   state_->notify(false);
-  return reload_site_state();
+  // The checks and alarms may have moved on with the dropped batch: back to what the store holds.
+  return refresh_copies(/*force=*/true);
 }
 
-Result<void> Ingestor::stored_readings_rewritten() {
-  if (state_->batch) {
-    return fail(ErrorKind::invalid_argument, "stored readings rewritten while a batch is open");
-  }
+Result<void> Ingestor::refresh_copies(bool force) {
+  auto changed = state_->store.stored_readings_changed(state_->readings_seen);
+  if (!changed) return std::unexpected(changed.error());
+  if (!*changed && !force) return {};
+  // Another writer's readings may sit next to the ones coming, and rewritten readings have other
+  // values: the checks must see them as neighbours (no false gap or spike), the alarms must replay
+  // them, and the daily figures must read the open day back.
+  ++state_->refreshes;
   if (state_->daily) state_->daily->forget();
   return reload_site_state();
-}
-
-Result<void> Ingestor::notice_other_writers() {
-  auto version = state_->store.connection().query_int64("PRAGMA data_version");
-  if (!version) return std::unexpected(version.error());
-  if (state_->data_version == *version) return {};
-  // Another writer's readings may sit next to the ones coming: the checks must see them as
-  // neighbours (no false gap or spike) and the alarms must replay them.
-  if (state_->data_version) {
-    if (auto reloaded = reload_site_state(); !reloaded) return reloaded;
-  }
-  state_->data_version = *version;
-  return {};
 }
 
 Result<void> Ingestor::reload_site_state() {
@@ -453,7 +463,6 @@ Result<void> Ingestor::reload_site_state() {
         !seeded) {
       return seeded;
     }
-    // The evaluator may have moved on with the dropped batch: back to what the store holds.
     if (auto restored = restore_alarms(state_->store, site->key, *site->config, state_->opened_ms,
                                        site->alarms);
         !restored) {
@@ -471,10 +480,15 @@ Result<void> Ingestor::tick_alarms() {
     events.clear();
     site->alarms->tick(now, events);
     if (events.empty()) continue;
+    const std::int64_t refreshes = state_->refreshes;
     auto batch = this->batch();
     if (!batch) return std::unexpected(batch.error());
+    // Opening the batch refreshed the evaluators (another process stored readings since they
+    // were taken: an evaluator that has not seen them can only think the sensor quieter than it
+    // is): judge again with what they hold now. With the batch open, that happens at most once.
+    if (state_->refreshes != refreshes) return tick_alarms();
     for (const auto& event : events) {
-      if (auto kept = alarms::record_event((*batch)->connection(), site->key, event); !kept) {
+      if (auto kept = state_->store.alarms().record(**batch, site->key, event); !kept) {
         return kept;
       }
       state_->alarm_log.emplace_back(site.get(), event);
@@ -484,7 +498,7 @@ Result<void> Ingestor::tick_alarms() {
 }
 
 Result<std::optional<IngestProgress>> Ingestor::committed_progress(std::string_view source_key) {
-  return state_->store.committed_progress(source_key);
+  return state_->store.progress().committed(source_key);
 }
 
 }  // namespace stagewell

@@ -25,15 +25,6 @@ constexpr std::size_t kContextReadings = 4096;
 constexpr Flags kArrivalFlags =
     Flags(static_cast<std::uint32_t>(Flag::late) | static_cast<std::uint32_t>(Flag::future));
 
-struct Stored {
-  std::int64_t time_ms = 0;
-  double stage = 0.0;
-  double depth = 0.0;
-  std::optional<double> discharge;
-  Flags flags;
-  ConfigVersionId config;
-};
-
 // |a - b| for discharges or volumes that may be missing: a value gained or lost counts whole.
 double difference(std::optional<double> a, std::optional<double> b) {
   if (a && b) return std::fabs(*a - *b);
@@ -75,78 +66,6 @@ struct Recomputation::State {
   }
 };
 
-namespace {
-
-// First and last reading of [from, to) computed with another version than `version`.
-Result<std::optional<std::pair<std::int64_t, std::int64_t>>> mismatched(
-    sqlite::Connection& connection, SiteKey key, std::int64_t from_ms, std::int64_t to_ms,
-    ConfigVersionId version) {
-  auto select = connection.cached(
-      "SELECT min(time_ms), max(time_ms) FROM readings "
-      "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms < ?3 AND config_id != ?4");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, key.value);
-  (*select)->bind(2, from_ms);
-  (*select)->bind(3, to_ms);
-  (*select)->bind(4, version.value);
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row || (*select)->column_is_null(0)) return std::nullopt;
-  return std::pair((*select)->column_int64(0), (*select)->column_int64(1));
-}
-
-Result<std::int64_t> count_between(sqlite::Connection& connection, SiteKey key,
-                                   std::int64_t from_ms, std::int64_t to_ms) {
-  auto select = connection.cached(
-      "SELECT count(*) FROM readings WHERE site_key = ?1 AND time_ms BETWEEN ?2 AND ?3");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, key.value);
-  (*select)->bind(2, from_ms);
-  (*select)->bind(3, to_ms);
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  return *row ? (*select)->column_int64(0) : 0;
-}
-
-Result<void> read_stored(sqlite::Connection& connection, SiteKey key, std::int64_t from_ms,
-                         std::int64_t to_ms, std::int64_t limit, std::vector<Stored>& out) {
-  out.clear();
-  auto select = connection.cached(
-      "SELECT time_ms, stage, depth, discharge, flags, config_id FROM readings "
-      "WHERE site_key = ?1 AND time_ms BETWEEN ?2 AND ?3 ORDER BY time_ms LIMIT ?4");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, key.value);
-  (*select)->bind(2, from_ms);
-  (*select)->bind(3, to_ms);
-  (*select)->bind(4, limit);
-  for (;;) {
-    auto row = (*select)->step();
-    if (!row) return std::unexpected(row.error());
-    if (!*row) return {};
-    const auto& s = **select;
-    out.push_back(
-        {s.column_int64(0), s.column_double(1), s.column_double(2), s.column_optional_double(3),
-         Flags(static_cast<std::uint32_t>(s.column_int64(4))), ConfigVersionId{s.column_int64(5)}});
-  }
-}
-
-Result<void> update_reading(sqlite::Connection& connection, SiteKey key, std::int64_t time_ms,
-                            const ComputedReading& computed) {
-  auto update = connection.cached(
-      "UPDATE readings SET depth = ?3, discharge = ?4, flags = ?5, config_id = ?6 "
-      "WHERE site_key = ?1 AND time_ms = ?2");
-  if (!update) return std::unexpected(update.error());
-  (*update)->bind(1, key.value);
-  (*update)->bind(2, time_ms);
-  (*update)->bind(3, computed.depth);
-  (*update)->bind(4, computed.discharge);
-  (*update)->bind(5, static_cast<std::int64_t>(computed.flags.bits()));
-  (*update)->bind(6, computed.config.value);
-  return (*update)->run();
-}
-
-}  // namespace
-
 Recomputation::Recomputation(std::unique_ptr<State> state) : state_(std::move(state)) {}
 Recomputation::~Recomputation() = default;
 
@@ -164,7 +83,7 @@ Result<std::unique_ptr<Recomputation>> Recomputation::plan(Store& store, const C
     return fail(ErrorKind::not_found,
                 fmt::format("no site '{}' in {}", site_id, config.file.string()));
   }
-  auto key = store.ensure_site(site->id);
+  auto key = store.sites().ensure(site->id);
   if (!key) return std::unexpected(key.error());
   auto history = SiteHistory::open(store, *key, *site, config.units, now_ms);
   if (!history) return std::unexpected(history.error());
@@ -179,13 +98,13 @@ Result<std::unique_ptr<Recomputation>> Recomputation::plan(Store& store, const C
   state->started_ms = now_ms;
 
   // The period: from the first to the last reading whose version is not its segment's.
-  auto& connection = store.connection();
+  auto readings = store.readings();
   auto& totals = state->totals;
   for (const HistorySegment& segment : state->history.segments()) {
     const std::int64_t from = std::max(segment.from_ms, from_ms);
     const std::int64_t to = std::min(segment.to_ms, to_ms);
     if (from >= to) continue;
-    auto found = mismatched(connection, *key, from, to, segment.version);
+    auto found = readings.mismatched(*key, from, to, segment.version);
     if (!found) return std::unexpected(found.error());
     if (!*found) continue;
     totals.period_from_ms =
@@ -197,7 +116,7 @@ Result<std::unique_ptr<Recomputation>> Recomputation::plan(Store& store, const C
     state->finished = true;
     return std::unique_ptr<Recomputation>(new Recomputation(std::move(state)));
   }
-  auto count = count_between(connection, *key, *totals.period_from_ms, *totals.period_to_ms);
+  auto count = readings.count(*key, *totals.period_from_ms, *totals.period_to_ms);
   if (!count) return std::unexpected(count.error());
   totals.readings_in_period = *count;
   state->cursor_ms = *totals.period_from_ms;
@@ -205,7 +124,7 @@ Result<std::unique_ptr<Recomputation>> Recomputation::plan(Store& store, const C
   // The checks' context: the readings before the period, with the checks in force at its start.
   state->checks = state->history.segment_at(*totals.period_from_ms).keys->checks;
   state->checker = SiteChecker(state->checks);
-  auto before = store.recent_readings(*key, *totals.period_from_ms - 1, kContextReadings);
+  auto before = readings.recent(*key, *totals.period_from_ms - 1, kContextReadings);
   if (!before) return std::unexpected(before.error());
   for (const auto& reading : *before) {
     if (!reading.flags.has(Flag::future)) state->remember(reading.time_ms, reading.stage);
@@ -222,11 +141,12 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   s.broken = true;  // until this step is committed
   auto batch = store.begin();
   if (!batch) return std::unexpected(batch.error());
-  auto& connection = batch->connection();
+  auto readings = store.readings();
 
-  std::vector<Stored> stored;
-  if (auto read = read_stored(connection, s.key, s.cursor_ms, *s.totals.period_to_ms,
-                              std::max<std::int64_t>(max_readings, 1), stored);
+  std::vector<StoredReading> stored;
+  if (auto read =
+          readings.range(s.key, s.cursor_ms, *s.totals.period_to_ms,
+                         static_cast<std::size_t>(std::max<std::int64_t>(max_readings, 1)), stored);
       !read) {
     return read;
   }
@@ -234,7 +154,7 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   // before it, which may be in this step (or, at its start, in the step before).
   std::vector<ComputedReading> computed;
   computed.reserve(stored.size());
-  for (const Stored& reading : stored) {
+  for (const StoredReading& reading : stored) {
     const ChecksSpec& in_force = s.history.segment_at(reading.time_ms).keys->checks;
     if (!(in_force == s.checks)) {  // a change brings other checks: same context, new rules
       s.checks = in_force;
@@ -252,20 +172,15 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
       const CheckResult result = s.checker.check(reading.time_ms, reading.stage, reading.time_ms);
       checked = result.flags;
       for (const EarlierFlag& earlier : result.earlier) {
-        const auto it =
-            std::lower_bound(stored.begin(), stored.end(), earlier.time_ms,
-                             [](const Stored& r, std::int64_t time) { return r.time_ms < time; });
+        const auto it = std::lower_bound(
+            stored.begin(), stored.end(), earlier.time_ms,
+            [](const StoredReading& r, std::int64_t time) { return r.time_ms < time; });
         const auto index = static_cast<std::size_t>(it - stored.begin());
         if (it != stored.end() && it->time_ms == earlier.time_ms && index < computed.size()) {
           computed[index].flags |= earlier.flags;
         } else if (earlier.time_ms >= *s.totals.period_from_ms) {
-          auto update = connection.cached(
-              "UPDATE readings SET flags = flags | ?3 WHERE site_key = ?1 AND time_ms = ?2");
-          if (!update) return std::unexpected(update.error());
-          (*update)->bind(1, s.key.value);
-          (*update)->bind(2, earlier.time_ms);
-          (*update)->bind(3, static_cast<std::int64_t>(earlier.flags.bits()));
-          if (auto done = (*update)->run(); !done) return done;
+          auto done = readings.rewrite_flags(*batch, s.key, earlier.time_ms, earlier.flags);
+          if (!done) return done;
         }
       }
       s.remember(reading.time_ms, reading.stage);
@@ -279,13 +194,13 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   std::optional<std::int64_t> first_changed;
   std::optional<std::int64_t> last_changed;
   for (std::size_t i = 0; i < stored.size(); ++i) {
-    const Stored& old = stored[i];
+    const StoredReading& old = stored[i];
     const ComputedReading& now = computed[i];
     const bool values_changed =
         old.depth != now.depth || old.discharge != now.discharge || !(old.flags == now.flags);
     const bool version_changed = old.config != now.config;
     if (!values_changed && !version_changed) continue;
-    if (auto done = update_reading(connection, s.key, old.time_ms, now); !done) return done;
+    if (auto done = readings.rewrite(*batch, s.key, old.time_ms, now); !done) return done;
     if (version_changed) {
       ++s.totals.readings_recomputed;
       s.record.saw(old.config, now.config, old.time_ms);
@@ -303,20 +218,21 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   if (first_changed) {
     const daily::Day first = s.calendar.day_of(*first_changed - s.rules.max_gap_ms);
     const daily::Day last = s.calendar.day_of(*last_changed + s.rules.max_gap_ms);
-    auto old_days = daily::read_days(connection, s.key, first, last);
+    auto figures_table = store.daily();
+    auto old_days = figures_table.days(s.key, first, last);
     if (!old_days) return std::unexpected(old_days.error());
     for (daily::Day day = first; day <= last; ++day) s.original_volume.try_emplace(day);
     for (const auto& figures : *old_days) {
       auto& original = s.original_volume[figures.day];
       if (!s.new_volume.contains(figures.day)) original = figures.volume;
     }
-    auto readings =
-        daily::read_readings(connection, s.key, s.calendar.start_ms(first) - s.rules.max_gap_ms,
-                             s.calendar.start_ms(last + 1) + s.rules.max_gap_ms);
-    if (!readings) return std::unexpected(readings.error());
+    auto day_readings =
+        readings.day_readings(s.key, s.calendar.start_ms(first) - s.rules.max_gap_ms,
+                              s.calendar.start_ms(last + 1) + s.rules.max_gap_ms);
+    if (!day_readings) return std::unexpected(day_readings.error());
     for (daily::Day day = first; day <= last; ++day) {
-      const daily::DayFigures figures = daily::compute_day(*readings, day, s.calendar, s.rules);
-      if (auto done = daily::write_day(connection, s.key, figures); !done) return done;
+      const daily::DayFigures figures = daily::compute_day(*day_readings, day, s.calendar, s.rules);
+      if (auto done = figures_table.write_day(*batch, s.key, figures); !done) return done;
       s.new_volume[day] = figures.volume;
     }
     double largest = 0.0;
@@ -329,7 +245,9 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
 
   s.totals.readings_walked += static_cast<std::int64_t>(stored.size());
   if (s.record.any()) {
-    if (auto done = s.record.write(connection, s.key, s.started_ms, s.totals); !done) return done;
+    if (auto done = s.record.write(store, *batch, s.key, s.started_ms, s.totals); !done) {
+      return done;
+    }
   }
   if (auto committed = batch->commit(); !committed) return committed;
   s.broken = false;

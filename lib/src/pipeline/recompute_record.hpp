@@ -1,6 +1,6 @@
 // The row of `recomputation_runs` (schema/004_history.sql, renamed by 005) that describes one
-// recomputation of a site: inserted with its first step and rewritten with each step after, inside the step's
-// transaction, so that it always agrees with the committed readings.
+// recomputation of a site: added with its first step and rewritten with each step after, inside
+// the step's batch, so that it always agrees with the committed readings.
 #pragma once
 
 #include <cstdint>
@@ -8,7 +8,6 @@
 #include <vector>
 
 #include "stagewell/recomputation.hpp"
-#include "stagewell/sqlite.hpp"
 #include "stagewell/store.hpp"
 
 namespace stagewell {
@@ -19,8 +18,8 @@ class RecomputeRecord {
   void saw(ConfigVersionId before, ConfigVersionId after, std::int64_t time_ms);
   bool any() const { return first_ms_.has_value(); }
 
-  // Inserts or rewrites the row. REQUIRES: any(); a write transaction open on `connection`.
-  Result<void> write(sqlite::Connection& connection, SiteKey site, std::int64_t at_ms,
+  // Adds or rewrites the row. REQUIRES: any(); `batch` is open on `store`.
+  Result<void> write(Store& store, WriteBatch& batch, SiteKey site, std::int64_t at_ms,
                      const RecomputationTotals& totals);
 
  private:

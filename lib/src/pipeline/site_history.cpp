@@ -70,7 +70,7 @@ Result<SiteHistory> SiteHistory::open(Store& store, SiteKey key, const SiteConfi
       history.hydraulics_.push_back(std::move(hydraulics));
     }
     segment.hydraulics = found->second;
-    auto version = store.record_config(
+    auto version = store.versions().record(
         key, site_config_json(*segment.keys, system, segment.correction), now_ms);
     if (!version) return std::unexpected(version.error());
     segment.version = *version;

@@ -6,7 +6,7 @@
 #include <string_view>
 
 #include "stagewell/result.hpp"
-#include "stagewell/sqlite.hpp"
+#include "store/sqlite.hpp"
 
 namespace stagewell::store_detail {
 

@@ -1,7 +1,9 @@
-#include "stagewell/sqlite.hpp"
+#include "store/sqlite.hpp"
 
 #include <fmt/format.h>
 #include <sqlite3.h>
+
+#include <algorithm>
 
 namespace stagewell::sqlite {
 namespace {
@@ -17,7 +19,13 @@ std::string excerpt(std::string_view sql) {
 
 }  // namespace
 
-Error to_error(int code, sqlite3* db, std::string_view doing) {
+Error to_error(int code, sqlite3* db, std::string_view doing, bool cancelled) {
+  if (cancelled) {
+    return Error{ErrorKind::cancelled,
+                 fmt::format("stopped waiting for a lock another connection holds while {}: the "
+                             "wait was cancelled",
+                             doing)};
+  }
   // After an injected fault (or a later call) the connection's message belongs to another code.
   const bool own_message = db != nullptr && sqlite3_extended_errcode(db) == code;
   const char* text = own_message ? sqlite3_errmsg(db) : sqlite3_errstr(code);
@@ -80,18 +88,29 @@ void Statement::bind_null(int index) {
 
 int Statement::step_code() {
   if (bind_error_ != SQLITE_OK) return bind_error_;
+  int rc = SQLITE_OK;
   if (connection_->step_hook_) {
-    if (const auto injected = connection_->step_hook_(sql())) return *injected;
+    // An injected busy code is a lock met at this step: wait as SQLite would, then ask again.
+    while (const auto injected = connection_->step_hook_(sql())) {
+      rc = *injected;
+      if (!is_busy(rc) || !connection_->keep_waiting()) {
+        connection_->end_wait(rc);
+        return rc;
+      }
+    }
   }
-  return sqlite3_step(statement_);
+  rc = sqlite3_step(statement_);
+  if (connection_->wait_.active || is_busy(rc)) connection_->end_wait(rc);
+  return rc;
 }
 
 Result<bool> Statement::step() {
   const int rc = step_code();
   if (rc == SQLITE_ROW) return true;
   if (rc == SQLITE_DONE) return false;
-  return std::unexpected(
-      to_error(rc, connection_->db_, fmt::format("running \"{}\"", excerpt(sql()))));
+  return std::unexpected(to_error(rc, connection_->db_,
+                                  fmt::format("running \"{}\"", excerpt(sql())),
+                                  is_busy(rc) && connection_->wait_cancelled_));
 }
 
 Result<void> Statement::run() {
@@ -172,9 +191,11 @@ Result<Statement> Connection::prepare(std::string_view sql) {
   sqlite3_stmt* statement = nullptr;
   const int rc =
       sqlite3_prepare_v2(db_, sql.data(), static_cast<int>(sql.size()), &statement, nullptr);
+  end_wait(rc);  // preparing reads the schema, which may meet a lock
   if (rc != SQLITE_OK) {
     sqlite3_finalize(statement);
-    return std::unexpected(to_error(rc, db_, fmt::format("preparing \"{}\"", excerpt(sql))));
+    return std::unexpected(
+        to_error(rc, db_, fmt::format("preparing \"{}\"", excerpt(sql)), wait_cancelled_));
   }
   return Statement(this, statement);
 }
@@ -197,11 +218,13 @@ Result<void> Connection::exec(std::string_view sql) {
     sqlite3_stmt* raw = nullptr;
     const char* tail = nullptr;
     const int rc = sqlite3_prepare_v2(db_, next, static_cast<int>(end - next), &raw, &tail);
+    end_wait(rc);
     if (rc != SQLITE_OK) {
       sqlite3_finalize(raw);
       return std::unexpected(to_error(
           rc, db_,
-          fmt::format("preparing \"{}\"", excerpt({next, static_cast<size_t>(end - next)}))));
+          fmt::format("preparing \"{}\"", excerpt({next, static_cast<size_t>(end - next)})),
+          wait_cancelled_));
     }
     next = tail;
     if (raw == nullptr) continue;  // only whitespace or a comment was left
@@ -231,6 +254,58 @@ Result<std::string> Connection::query_text(std::string_view sql) {
 
 std::int64_t Connection::changes() const { return sqlite3_changes64(db_); }
 
+std::int64_t Connection::last_insert_rowid() const { return sqlite3_last_insert_rowid(db_); }
+
 bool Connection::in_transaction() const { return sqlite3_get_autocommit(db_) == 0; }
+
+// ---- Waiting for locks ----
+
+namespace {
+
+// Maximum pause between two looks at a lock, so that a cancellation is seen promptly.
+constexpr std::int64_t kMaxPollMs = 50;
+
+}  // namespace
+
+int Connection::on_busy(void* connection, int /*calls: counted by keep_waiting itself*/) {
+  return static_cast<Connection*>(connection)->keep_waiting() ? 1 : 0;
+}
+
+void Connection::set_lock_wait(LockWait wait) {
+  wait.poll_ms = std::clamp<std::int64_t>(wait.poll_ms, 1, kMaxPollMs);
+  lock_wait_ = std::move(wait);
+  waits_for_locks_ = true;
+  sqlite3_busy_handler(db_, on_busy, this);
+}
+
+bool Connection::keep_waiting() {
+  if (!waits_for_locks_) return false;  // as SQLite without a busy handler: fail at once
+  // One statement may meet several locks (SQLite counts its calls per lock): its wait is one.
+  if (!wait_.active) {
+    wait_ = Wait{.active = true, .started = std::chrono::steady_clock::now()};
+  }
+  if (lock_wait_.cancel && lock_wait_.cancel->load(std::memory_order_relaxed)) {
+    wait_.cancelled = true;
+    return false;
+  }
+  if (lock_wait_.give_up_after_ms && wait_.paused_ms >= *lock_wait_.give_up_after_ms) {
+    return false;
+  }
+  if (!wait_.noticed && wait_.paused_ms >= lock_wait_.notice_after_ms) {
+    wait_.noticed = true;
+    if (lock_wait_.on_waiting) lock_wait_.on_waiting(wait_.paused_ms);
+  }
+  sqlite3_sleep(static_cast<int>(lock_wait_.poll_ms));
+  wait_.paused_ms += lock_wait_.poll_ms;
+  return true;
+}
+
+void Connection::end_wait(int code) {
+  const Wait ended = std::exchange(wait_, Wait{});
+  wait_cancelled_ = ended.active && ended.cancelled && is_busy(code);
+  if (!ended.active || is_busy(code) || !ended.noticed || !lock_wait_.on_resumed) return;
+  const auto waited = std::chrono::steady_clock::now() - ended.started;
+  lock_wait_.on_resumed(std::chrono::duration_cast<std::chrono::milliseconds>(waited).count());
+}
 
 }  // namespace stagewell::sqlite

@@ -1,29 +1,27 @@
-// Opening a store (pragmas, migrations) and the reads that need no batch.
+// Opening a store (pragmas, lock waits, migrations), its tables, and whether stored readings
+// changed.
 #include "stagewell/store.hpp"
 
 #include <fmt/format.h>
-#include <sqlite3.h>
 
-#include <algorithm>
 #include <system_error>
 
 #include "store/migrations.hpp"
-#include "store/store_impl.hpp"
+#include "store/store_core.hpp"
 
 namespace stagewell {
 namespace {
 
 using sqlite::Connection;
+using store_detail::Core;
 
 Result<std::unique_ptr<Connection>> connect(const std::filesystem::path& path,
                                             Connection::Access access,
                                             const StoreOptions& options) {
   auto connection = Connection::open(path, access);
   if (!connection) return connection;
-  // Waits inside SQLite for a lock another connection holds before reporting SQLITE_BUSY.
-  auto timeout =
-      (*connection)->exec(fmt::format("PRAGMA busy_timeout = {}", options.busy_timeout_ms));
-  if (!timeout) return std::unexpected(timeout.error());
+  // Every statement waits for a lock another connection holds as the options say.
+  (*connection)->set_lock_wait(options.lock_wait);
   return connection;
 }
 
@@ -50,15 +48,18 @@ Result<void> configure_writer(Connection& connection) {
   return connection.exec("PRAGMA foreign_keys = ON");
 }
 
-Result<std::int64_t> single_count(sqlite::CachedStatement statement) {
-  auto row = statement->step();
-  if (!row) return std::unexpected(row.error());
-  return *row ? statement->column_int64(0) : 0;
+std::unique_ptr<Core> make_core(std::unique_ptr<Connection> connection,
+                                const StoreOptions& options) {
+  auto core = std::make_unique<Core>();
+  core->connection = std::move(connection);
+  core->options = options;
+  core->schema_version = store_detail::latest_schema_version();
+  return core;
 }
 
 }  // namespace
 
-Store::Store(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
+Store::Store(std::unique_ptr<Core> core) : core_(std::move(core)) {}
 Store::Store(Store&&) noexcept = default;
 Store& Store::operator=(Store&&) noexcept = default;
 Store::~Store() = default;
@@ -77,11 +78,7 @@ Result<Store> Store::open(const std::filesystem::path& path, const StoreOptions&
   if (!connection) return std::unexpected(connection.error());
   if (auto ok = configure_writer(**connection); !ok) return std::unexpected(ok.error());
   if (auto ok = store_detail::migrate(**connection); !ok) return std::unexpected(ok.error());
-  auto impl = std::make_unique<Impl>();
-  impl->connection = std::move(*connection);
-  impl->options = options;
-  impl->schema_version = store_detail::latest_schema_version();
-  return Store(std::move(impl));
+  return Store(make_core(std::move(*connection), options));
 }
 
 Result<Store> Store::open_read_only(const std::filesystem::path& path,
@@ -93,144 +90,56 @@ Result<Store> Store::open_read_only(const std::filesystem::path& path,
   auto connection = connect(path, Connection::Access::read_only, options);
   if (!connection) return std::unexpected(connection.error());
   if (auto ok = store_detail::check_schema(**connection); !ok) return std::unexpected(ok.error());
-  auto impl = std::make_unique<Impl>();
-  impl->connection = std::move(*connection);
-  impl->options = options;
-  impl->schema_version = store_detail::latest_schema_version();
-  return Store(std::move(impl));
+  return Store(make_core(std::move(*connection), options));
 }
 
-int Store::schema_version() const { return impl_->schema_version; }
+int Store::schema_version() const { return core_->schema_version; }
 
 bool Store::read_only() const {
-  return impl_->connection->access() == Connection::Access::read_only;
+  return core_->connection->access() == Connection::Access::read_only;
 }
 
-Result<SiteKey> Store::ensure_site(std::string_view id) {
-  if (auto ok = impl_->require_writable("add a site"); !ok) return std::unexpected(ok.error());
-  if (auto ok = impl_->require_no_batch("add a site"); !ok) return std::unexpected(ok.error());
-  if (id.empty()) return fail(ErrorKind::invalid_argument, "a site id cannot be empty");
-  auto& connection = *impl_->connection;
-  {
-    auto insert =
-        connection.cached("INSERT INTO sites (id) VALUES (?1) ON CONFLICT (id) DO NOTHING");
-    if (!insert) return std::unexpected(insert.error());
-    (*insert)->bind(1, id);
-    if (auto done = (*insert)->run(); !done) return std::unexpected(done.error());
-  }
-  auto select = connection.cached("SELECT site_key FROM sites WHERE id = ?1");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, id);
-  auto row = (*select)->step();
+SitesTable Store::sites() { return SitesTable(core_.get()); }
+VersionsTable Store::versions() { return VersionsTable(core_.get()); }
+ReadingsTable Store::readings() { return ReadingsTable(core_.get()); }
+ProgressTable Store::progress() { return ProgressTable(core_.get()); }
+DailyTable Store::daily() { return DailyTable(core_.get()); }
+AlarmTable Store::alarms() { return AlarmTable(core_.get()); }
+RecomputationRunsTable Store::recomputation_runs() { return RecomputationRunsTable(core_.get()); }
+
+Result<bool> Store::stored_readings_changed(ReadingsMark& seen) {
+  // data_version changes when another connection commits; this store's own commits, the rewrites
+  // included, leave it alone: those are counted here.
+  auto version = core_->db().cached("PRAGMA data_version");
+  if (!version) return std::unexpected(version.error());
+  auto row = (*version)->step();
   if (!row) return std::unexpected(row.error());
-  if (!*row) return fail(ErrorKind::database, fmt::format("site \"{}\" vanished after insert", id));
-  return SiteKey{(*select)->column_int64(0)};
+  if (!*row) return fail(ErrorKind::database, "PRAGMA data_version returned no row");
+  const ReadingsMark now{(*version)->column_int64(0), core_->readings_rewrites};
+  const bool changed = !(now == seen);
+  seen = now;
+  return changed;
 }
 
-Result<std::optional<IngestProgress>> Store::committed_progress(std::string_view source) {
-  auto select = impl_->connection->cached(
-      "SELECT file_identity, byte_offset, updated_ms FROM ingest_progress WHERE source = ?1");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, source);
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row) return std::optional<IngestProgress>{};
-  return IngestProgress{(*select)->column_text(0), (*select)->column_int64(1),
-                        (*select)->column_int64(2)};
+void Store::set_step_hook_for_testing(StepHook hook) {
+  core_->connection->set_step_hook(std::move(hook));
 }
 
-Result<std::vector<StoredReading>> Store::recent_readings(SiteKey site,
-                                                          std::int64_t at_or_before_ms,
-                                                          std::size_t count) {
-  // Newest first along the primary key, then reversed: the caller replays them in time order.
-  auto select = impl_->connection->cached(
-      "SELECT time_ms, stage, depth, discharge, flags, config_id FROM readings "
-      "WHERE site_key = ?1 AND time_ms <= ?2 ORDER BY time_ms DESC LIMIT ?3");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, site.value);
-  (*select)->bind(2, at_or_before_ms);
-  (*select)->bind(3, static_cast<std::int64_t>(std::min<std::size_t>(count, INT64_MAX)));
-  std::vector<StoredReading> readings;
-  for (;;) {
-    auto row = (*select)->step();
-    if (!row) return std::unexpected(row.error());
-    if (!*row) break;
-    const auto& s = **select;
-    readings.push_back(StoredReading{
-        .site = site,
-        .time_ms = s.column_int64(0),
-        .stage = s.column_double(1),
-        .depth = s.column_double(2),
-        .discharge = s.column_optional_double(3),
-        .flags = Flags(static_cast<std::uint32_t>(s.column_int64(4))),
-        .config = ConfigVersionId{s.column_int64(5)},
-    });
-  }
-  std::reverse(readings.begin(), readings.end());
-  return readings;
-}
+// ---- store_detail::Core ----
 
-Result<std::int64_t> Store::count_readings() {
-  auto select = impl_->connection->cached("SELECT count(*) FROM readings");
-  if (!select) return std::unexpected(select.error());
-  return single_count(std::move(*select));
-}
+namespace store_detail {
 
-Result<std::int64_t> Store::count_readings(SiteKey site) {
-  auto select = impl_->connection->cached("SELECT count(*) FROM readings WHERE site_key = ?1");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, site.value);
-  return single_count(std::move(*select));
-}
-
-Result<std::optional<double>> Store::stored_stage(SiteKey site, std::int64_t time_ms) {
-  auto select =
-      impl_->connection->cached("SELECT stage FROM readings WHERE site_key = ?1 AND time_ms = ?2");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, site.value);
-  (*select)->bind(2, time_ms);
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row) return std::optional<double>{};
-  return std::optional<double>((*select)->column_double(0));
-}
-
-void Store::set_step_hook_for_testing(sqlite::StepHook hook) {
-  impl_->connection->set_step_hook(std::move(hook));
-}
-
-sqlite::Connection& Store::connection() { return *impl_->connection; }
-
-// ---- Store::Impl ----
-
-Result<void> Store::Impl::run_retrying_busy(std::string_view sql) {
-  auto statement = connection->cached(sql);
-  if (!statement) return std::unexpected(statement.error());
-  for (int attempt = 1;; ++attempt) {
-    const int code = (*statement)->step_code();
-    if (code == SQLITE_DONE) return {};
-    if (!sqlite::is_busy(code) || attempt >= options.busy_attempts) {
-      // Converted before the reset, which may replace the connection's message.
-      return std::unexpected(sqlite::to_error(
-          code, connection->handle(),
-          fmt::format("running \"{}\" on {} (attempt {} of {})", sql, connection->path().string(),
-                      attempt, options.busy_attempts)));
-    }
-    (*statement)->reset();
-    sqlite3_sleep(options.busy_pause_ms);
-  }
-}
-
-Result<void> Store::Impl::require_writable(std::string_view doing) const {
+Result<void> Core::require_writable(std::string_view doing) const {
   if (connection->access() != Connection::Access::read_only) return {};
   return fail(ErrorKind::invalid_argument,
               fmt::format("cannot {}: {} is open read-only", doing, connection->path().string()));
 }
 
-Result<void> Store::Impl::require_no_batch(std::string_view doing) const {
+Result<void> Core::require_no_batch(std::string_view doing) const {
   if (!batch_open) return {};
   return fail(ErrorKind::invalid_argument,
               fmt::format("cannot {} while a write batch is open; commit it first", doing));
 }
 
+}  // namespace store_detail
 }  // namespace stagewell

@@ -4,7 +4,7 @@
 #include <cmath>
 
 #include "stagewell/store.hpp"
-#include "store/store_impl.hpp"
+#include "store/store_core.hpp"
 
 namespace stagewell {
 namespace {
@@ -31,7 +31,7 @@ Result<void> check_finite(const StoredReading& reading) {
                           reading.time_ms));
 }
 
-// The reading INSERT on loan. `held` keeps it once prepared (Store::Impl::insert_reading). Every
+// The reading INSERT on loan. `held` keeps it once prepared (Core::insert_reading). Every
 // parameter is bound for each reading, so the loan keeps the bindings instead of clearing them.
 Result<sqlite::CachedStatement> reading_insert(sqlite::Connection& connection,
                                                sqlite::Statement*& held) {
@@ -63,46 +63,51 @@ Result<InsertResult> insert_reading(sqlite::Connection& connection, sqlite::Stat
   if (connection.changes() == 1) return InsertResult{InsertOutcome::stored, std::nullopt};
 
   // Already stored: the common case is a source read again after a crash (same stage).
-  auto select =
-      connection.cached("SELECT stage FROM readings WHERE site_key = ?1 AND time_ms = ?2");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, reading.site.value);
-  (*select)->bind(2, reading.time_ms);
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row) return fail(ErrorKind::database, "a reading was neither inserted nor found");
-  const double stored_stage = (*select)->column_double(0);
+  auto stored = store_detail::stored_stage(connection, reading.site, reading.time_ms);
+  if (!stored) return std::unexpected(stored.error());
+  if (!*stored) return fail(ErrorKind::database, "a reading was neither inserted nor found");
   // Exact comparison: the same text parses to the same double, and SQLite stores REAL exactly.
   const auto outcome =
-      stored_stage == reading.stage ? InsertOutcome::duplicate : InsertOutcome::conflict;
-  return InsertResult{outcome, stored_stage};
+      **stored == reading.stage ? InsertOutcome::duplicate : InsertOutcome::conflict;
+  return InsertResult{outcome, *stored};
+}
+
+// BEGIN IMMEDIATE, COMMIT, ROLLBACK. A lock another connection holds is waited for inside the
+// step (StoreOptions).
+Result<void> run(sqlite::Connection& connection, std::string_view sql) {
+  auto statement = connection.cached(sql);
+  if (!statement) return std::unexpected(statement.error());
+  return (*statement)->run();
 }
 
 }  // namespace
 
-Result<WriteBatch> Store::begin() {
-  if (auto ok = impl_->require_writable("begin a write batch"); !ok) {
+Result<WriteBatch> Store::begin() { return store_detail::BatchAccess::begin(*core_); }
+
+Result<WriteBatch> store_detail::BatchAccess::begin(Core& core) {
+  if (auto ok = core.require_writable("begin a write batch"); !ok) {
     return std::unexpected(ok.error());
   }
-  if (impl_->batch_open) {
+  if (core.batch_open) {
     return fail(ErrorKind::invalid_argument, "a write batch is already open on this store");
   }
+  auto& connection = core.db();
   // A transaction left open by a ROLLBACK that itself failed: end it before starting anew.
-  if (impl_->connection->in_transaction()) {
-    if (auto ok = impl_->connection->exec("ROLLBACK"); !ok) return std::unexpected(ok.error());
+  if (connection.in_transaction()) {
+    if (auto ok = run(connection, "ROLLBACK"); !ok) return std::unexpected(ok.error());
   }
   // IMMEDIATE takes the write lock now. A deferred transaction that reads (the duplicate check)
   // and then writes can fail half-way with a busy error no waiting can cure, when another
   // connection wrote in between (SQLITE_BUSY_SNAPSHOT).
-  if (auto ok = impl_->run_retrying_busy("BEGIN IMMEDIATE"); !ok) {
-    return std::unexpected(ok.error());
-  }
-  impl_->batch_open = true;
-  return WriteBatch(impl_.get());
+  if (auto ok = run(connection, "BEGIN IMMEDIATE"); !ok) return std::unexpected(ok.error());
+  core.batch_open = true;
+  return WriteBatch(&core);
 }
 
 WriteBatch::WriteBatch(WriteBatch&& other) noexcept
-    : store_(std::exchange(other.store_, nullptr)), spoiled_(other.spoiled_) {}
+    : store_(std::exchange(other.store_, nullptr)),
+      spoiled_(other.spoiled_),
+      rewrote_readings_(other.rewrote_readings_) {}
 
 WriteBatch::~WriteBatch() { roll_back(); }
 
@@ -125,16 +130,7 @@ Result<InsertResult> WriteBatch::insert(const StoredReading& reading) {
 
 Result<bool> WriteBatch::add_flags(SiteKey site, std::int64_t time_ms, Flags flags) {
   if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
-  auto& connection = *store_->connection;
-  auto update = connection.cached(
-      "UPDATE readings SET flags = flags | ?3 WHERE site_key = ?1 AND time_ms = ?2");
-  if (!update) return spoil_on_error(Result<bool>(std::unexpected(update.error())));
-  (*update)->bind(1, site.value);
-  (*update)->bind(2, time_ms);
-  (*update)->bind(3, static_cast<std::int64_t>(flags.bits()));
-  auto done = spoil_on_error((*update)->run());
-  if (!done) return std::unexpected(done.error());
-  return connection.changes() == 1;
+  return spoil_on_error(store_detail::or_flags(*store_->connection, site, time_ms, flags));
 }
 
 Result<void> WriteBatch::add_reject(const Reject& reject) {
@@ -181,24 +177,25 @@ Result<void> WriteBatch::commit() {
     return fail(ErrorKind::invalid_argument,
                 "a write batch in which a call failed cannot be committed; it was rolled back");
   }
-  auto committed = store_->run_retrying_busy("COMMIT");
+  // A COMMIT that meets a lock waits inside its step (StoreOptions); one that fails for good is
+  // rolled back, leaving nothing of the batch behind.
+  auto committed = run(*store_->connection, "COMMIT");
   if (!committed) {
-    roll_back();  // a COMMIT that failed for good leaves nothing of the batch behind
+    roll_back();
     return committed;
   }
+  if (rewrote_readings_) ++store_->readings_rewrites;
   store_->batch_open = false;
   store_ = nullptr;
   return {};
 }
-
-sqlite::Connection& WriteBatch::connection() { return *store_->connection; }
 
 void WriteBatch::roll_back() {
   if (store_ == nullptr) return;
   auto& connection = *store_->connection;
   if (connection.in_transaction()) {
     // If even this fails, the transaction stays open and the next begin() ends it.
-    (void)connection.exec("ROLLBACK");
+    (void)run(connection, "ROLLBACK");
   }
   store_->batch_open = false;
   store_ = nullptr;

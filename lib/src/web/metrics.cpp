@@ -110,6 +110,10 @@ double file_bytes(const std::filesystem::path& path) {
 
 constexpr std::string_view kExtraRejectKinds[] = {"bad_header", "conflict"};
 
+// Bounds on the rows one answer reads: the most recent sources, and (site, kind) pairs.
+constexpr std::size_t kMaxSources = 100;
+constexpr std::size_t kMaxAlarmStates = 1000;
+
 }  // namespace
 
 Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view accept,
@@ -154,21 +158,15 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
 
   // Lag of each source: seconds since its reading position was last committed (ingest_progress;
   // a tcp listener writes its row, without an offset, when lines arrive); a source that delivers
-  // nothing new grows old. The 100 most recent sources.
+  // nothing new grows old. The most recent sources (kMaxSources).
   out.family("stagewell_source_progress_age_seconds", "gauge",
              "Seconds since each source (file or tcp listener) last had input committed.",
              "seconds");
-  {
-    auto select = state.store.connection().cached(
-        "SELECT source, updated_ms FROM ingest_progress ORDER BY updated_ms DESC LIMIT 100");
-    if (!select) return std::unexpected(select.error());
-    while (true) {
-      auto row = (*select)->step();
-      if (!row) return std::unexpected(row.error());
-      if (!*row) break;
-      out.sample(label("source", (*select)->column_text(0)),
-                 static_cast<double>(now_ms - (*select)->column_int64(1)) / 1000.0);
-    }
+  auto progress = state.store.progress(kMaxSources);
+  if (!progress) return std::unexpected(progress.error());
+  for (const SourceProgress& source : *progress) {
+    out.sample(label("source", source.source),
+               static_cast<double>(now_ms - source.progress.updated_ms) / 1000.0);
   }
 
   out.family("stagewell_database_size_bytes", "gauge",
@@ -182,18 +180,13 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
     auto key = site_key(state, site.id);
     if (!key) return std::unexpected(key.error());
     if (!*key) continue;
-    auto select =
-        state.store.connection().cached("SELECT max(time_ms) FROM readings WHERE site_key = ?1");
-    if (!select) return std::unexpected(select.error());
-    (*select)->bind(1, (*key)->value);
-    auto row = (*select)->step();
-    if (!row) return std::unexpected(row.error());
-    if (!*row || (*select)->column_is_null(0)) continue;
-    out.sample(label("site", site.id),
-               static_cast<double>(now_ms - (*select)->column_int64(0)) / 1000.0);
+    auto latest = state.store.latest_reading(**key);
+    if (!latest) return std::unexpected(latest.error());
+    if (!*latest) continue;
+    out.sample(label("site", site.id), static_cast<double>(now_ms - (*latest)->time_ms) / 1000.0);
   }
 
-  auto alarms = has_alarms(state);
+  auto alarms = state.store.has_alarms();
   if (!alarms) return std::unexpected(alarms.error());
   out.family("stagewell_alarms_available", "gauge",
              "1 when the database has the alarms view, 0 before it exists.");
@@ -201,17 +194,11 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
   out.family("stagewell_alarm_active", "gauge",
              "1 while an alarm of this site and kind is raised and not cleared, else 0.");
   if (*alarms) {
-    auto select = state.store.connection().prepare(
-        "SELECT site, kind, max(cleared IS NULL) FROM alarms GROUP BY site, kind "
-        "ORDER BY site, kind LIMIT 1000");
-    if (!select) return std::unexpected(select.error());
-    while (true) {
-      auto row = select->step();
-      if (!row) return std::unexpected(row.error());
-      if (!*row) break;
-      out.sample(
-          label("site", select->column_text(0)) + "," + label("kind", select->column_text(1)),
-          static_cast<double>(select->column_int64(2)));
+    auto states = state.store.alarm_states(kMaxAlarmStates);
+    if (!states) return std::unexpected(states.error());
+    for (const alarms::AlarmState& alarm : *states) {
+      out.sample(label("site", alarm.site) + "," + label("kind", alarms::name(alarm.kind)),
+                 alarm.open ? 1.0 : 0.0);
     }
   }
 

@@ -2,6 +2,7 @@
 // alarms. One primary-key lookup per site and table: bounded whatever the database's size.
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <nlohmann/json.hpp>
 
 #include "stagewell/units.hpp"
@@ -12,69 +13,48 @@ namespace {
 
 using nlohmann::json;
 
-json optional_number(const sqlite::Statement& row, int column) {
-  if (row.column_is_null(column)) return nullptr;
-  return row.column_double(column);
-}
-
 Result<json> latest_reading(StatusApi::State& state, SiteKey key, std::int64_t now_ms) {
-  auto select = state.store.connection().cached(
-      "SELECT time_ms, stage, depth, discharge, flags FROM readings WHERE site_key = ?1 "
-      "ORDER BY time_ms DESC LIMIT 1");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, key.value);
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row) return json(nullptr);
-  const std::int64_t time_ms = (*select)->column_int64(0);
-  return json{{"time", format_timestamp_utc(time_ms)},
-              {"age_s", static_cast<double>(now_ms - time_ms) / 1000.0},
-              {"stage", (*select)->column_double(1)},
-              {"depth", (*select)->column_double(2)},
-              {"discharge", optional_number(**select, 3)},
-              {"flags", flag_names((*select)->column_int64(4))}};
+  auto latest = state.store.latest_reading(key);
+  if (!latest) return std::unexpected(latest.error());
+  if (!*latest) return json(nullptr);
+  const StoredReading& reading = **latest;
+  return json{{"time", format_timestamp_utc(reading.time_ms)},
+              {"age_s", static_cast<double>(now_ms - reading.time_ms) / 1000.0},
+              {"stage", reading.stage},
+              {"depth", reading.depth},
+              {"discharge", optional_number(reading.discharge)},
+              {"flags", flag_names(reading.flags)}};
 }
 
-Result<json> day_figures(StatusApi::State& state, SiteKey key, const std::string& day) {
-  auto select = state.store.connection().cached(
-      "SELECT volume, coverage, readings, flagged FROM daily_figures "
-      "WHERE site_key = ?1 AND day = ?2");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, key.value);
-  (*select)->bind(2, std::string_view(day));
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row) return json{{"day", day}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}};
-  return json{{"day", day},
-              {"volume", optional_number(**select, 0)},
-              {"coverage", (*select)->column_double(1)},
-              {"readings", (*select)->column_int64(2)},
-              {"flagged", (*select)->column_int64(3)}};
+Result<json> day_figures(StatusApi::State& state, SiteKey key, daily::Day day) {
+  const std::string text = daily::format_day(day);
+  auto days = state.store.days(key, day, day);
+  if (!days) return std::unexpected(days.error());
+  if (days->empty()) {
+    return json{{"day", text}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}};
+  }
+  const daily::DayFigures& figures = days->front();
+  return json{{"day", text},
+              {"volume", optional_number(figures.volume)},
+              {"coverage", figures.coverage},
+              {"readings", figures.readings},
+              {"flagged", figures.flagged}};
 }
 
-// Open alarms by site id, from the `alarms` view (site, kind, raised, cleared, value, threshold)
-// when the database has one. `raised` is passed on as stored (text or number).
+// Open alarms by site id, each site's in kind order.
 Result<std::map<std::string, json>> open_alarms(StatusApi::State& state) {
   std::map<std::string, json> by_site;
-  auto present = has_alarms(state);
-  if (!present) return std::unexpected(present.error());
-  if (!*present) return by_site;
-  auto select = state.store.connection().prepare(
-      "SELECT site, kind, raised, typeof(raised), value, threshold FROM alarms "
-      "WHERE cleared IS NULL ORDER BY site, kind LIMIT 1000");
-  if (!select) return std::unexpected(select.error());
-  while (true) {
-    auto row = select->step();
-    if (!row) return std::unexpected(row.error());
-    if (!*row) break;
-    const std::string type = select->column_text(3);
-    json raised = type == "integer" || type == "real" ? json(select->column_double(2))
-                  : type == "null"                    ? json(nullptr)
-                                                      : json(select->column_text(2));
-    by_site[select->column_text(0)].push_back({{"kind", select->column_text(1)},
-                                               {"raised", raised},
-                                               {"value", optional_number(*select, 4)},
-                                               {"threshold", optional_number(*select, 5)}});
+  auto open = state.store.open_alarms();
+  if (!open) return std::unexpected(open.error());
+  std::stable_sort(open->begin(), open->end(), [](const auto& a, const auto& b) {
+    return std::pair(std::string_view(a.site), alarms::name(a.kind)) <
+           std::pair(std::string_view(b.site), alarms::name(b.kind));
+  });
+  for (const alarms::AlarmRecord& alarm : *open) {
+    by_site[alarm.site].push_back({{"kind", alarms::name(alarm.kind)},
+                                   {"raised", format_timestamp_utc(alarm.raised_ms)},
+                                   {"value", alarm.value},
+                                   {"threshold", alarm.threshold}});
   }
   return by_site;
 }
@@ -83,24 +63,26 @@ Result<std::map<std::string, json>> open_alarms(StatusApi::State& state) {
 
 Result<HttpAnswer> sites_answer(StatusApi::State& state, std::int64_t now_ms) {
   const auto system = state.config.units;
-  const std::string today = local_day(state, now_ms);
+  const daily::Day today = local_day(state, now_ms);
+  const std::string today_text = daily::format_day(today);
   auto alarms = open_alarms(state);
   if (!alarms) return std::unexpected(alarms.error());
-  auto alarms_known = has_alarms(state);
+  auto alarms_known = state.store.has_alarms();
   if (!alarms_known) return std::unexpected(alarms_known.error());
 
   json sites = json::array();
   for (const auto& site : state.config.sites) {
-    json entry{{"id", site.id},
-               {"name", site.name},
-               {"stage_unit", units::symbol(site.stage.units)},
-               {"depth_unit", units::length_symbol(system)},
-               {"discharge_unit", units::discharge_symbol(system)},
-               {"volume_unit", units::volume_symbol(system)},
-               {"max_gap_s", site.checks.max_gap_s},
-               {"latest", nullptr},
-               {"today", {{"day", today}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}}},
-               {"alarms", json::array()}};
+    json entry{
+        {"id", site.id},
+        {"name", site.name},
+        {"stage_unit", units::symbol(site.stage.units)},
+        {"depth_unit", units::length_symbol(system)},
+        {"discharge_unit", units::discharge_symbol(system)},
+        {"volume_unit", units::volume_symbol(system)},
+        {"max_gap_s", site.checks.max_gap_s},
+        {"latest", nullptr},
+        {"today", {{"day", today_text}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}}},
+        {"alarms", json::array()}};
     auto key = site_key(state, site.id);
     if (!key) return std::unexpected(key.error());
     if (*key) {
@@ -118,7 +100,7 @@ Result<HttpAnswer> sites_answer(StatusApi::State& state, std::int64_t now_ms) {
   }
   const json body{{"now", format_timestamp_utc(now_ms)},
                   {"timezone", state.config.timezone},
-                  {"today", today},
+                  {"today", today_text},
                   {"units", units::name(system)},
                   {"alarms_available", *alarms_known},
                   {"caution", kDischargeCaution},

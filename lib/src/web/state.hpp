@@ -1,5 +1,6 @@
-// What every answer of the StatusApi reads from: the configuration, the read-only store, the
-// configuration's time zone and the service's live figures; and the answers, one file each.
+// What every answer of the StatusApi reads from: the configuration, its own reader of the database
+// (StoreReader: typed reads, no SQL here), the configuration's time zone and the service's live
+// figures; and the answers, one file each.
 #pragma once
 
 #include <map>
@@ -8,7 +9,7 @@
 #include <string>
 
 #include "stagewell/status_api.hpp"
-#include "stagewell/store.hpp"
+#include "stagewell/store_reader.hpp"
 #include "stagewell/timestamp.hpp"
 #include "web/target.hpp"
 
@@ -16,7 +17,7 @@ namespace stagewell {
 
 struct StatusApi::State {
   Config config;
-  Store store;
+  StoreReader store;
   TimeZone zone;  // of the daily figures: "today" is the local day here
   LiveFiguresSource live;
   std::map<std::string, SiteKey, std::less<>> site_keys;  // found on first use
@@ -27,14 +28,17 @@ namespace web_detail {
 // The store key of a configured site; nullopt when the database has no row for it yet.
 Result<std::optional<SiteKey>> site_key(StatusApi::State& state, const std::string& id);
 
-// The local day ("YYYY-MM-DD") of `time_ms` in the configuration's time zone.
-std::string local_day(const StatusApi::State& state, std::int64_t time_ms);
-
-// Whether the database has an `alarms` table or view (added by a later schema).
-Result<bool> has_alarms(StatusApi::State& state);
+// The local day of `time_ms` in the configuration's time zone.
+daily::Day local_day(const StatusApi::State& state, std::int64_t time_ms);
 
 // Flag names of a stored flag bitmask, in flag order.
-std::vector<std::string> flag_names(std::int64_t bits);
+std::vector<std::string> flag_names(Flags flags);
+
+// A number that may be missing: JSON null when it is.
+template <typename T>
+nlohmann::json optional_number(const std::optional<T>& value) {
+  return value ? nlohmann::json(*value) : nlohmann::json(nullptr);
+}
 
 HttpAnswer json_answer(int status, const std::string& body);
 // JSON text; bytes that are not UTF-8 (from a view another module fills) become U+FFFD rather

@@ -36,37 +36,22 @@ std::string to_text(const nlohmann::json& value) {
 
 Result<std::optional<SiteKey>> site_key(StatusApi::State& state, const std::string& id) {
   if (auto found = state.site_keys.find(id); found != state.site_keys.end()) return found->second;
-  auto select = state.store.connection().cached("SELECT site_key FROM sites WHERE id = ?1");
-  if (!select) return std::unexpected(select.error());
-  (*select)->bind(1, std::string_view(id));
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  if (!*row) return std::optional<SiteKey>();
-  const SiteKey key{(*select)->column_int64(0)};
-  state.site_keys.emplace(id, key);
-  return std::optional<SiteKey>(key);
+  auto key = state.store.find_site(id);
+  if (!key) return std::unexpected(key.error());
+  if (*key) state.site_keys.emplace(id, **key);
+  return *key;
 }
 
-std::string local_day(const StatusApi::State& state, std::int64_t time_ms) {
+daily::Day local_day(const StatusApi::State& state, std::int64_t time_ms) {
   const auto instant = std::chrono::system_clock::time_point(std::chrono::milliseconds(time_ms));
-  const auto day = cctz::civil_day(
+  return cctz::civil_day(
       cctz::convert(std::chrono::time_point_cast<cctz::seconds>(instant), state.zone.cctz_zone()));
-  return fmt::format("{:04}-{:02}-{:02}", day.year(), day.month(), day.day());
 }
 
-Result<bool> has_alarms(StatusApi::State& state) {
-  auto select = state.store.connection().cached(
-      "SELECT count(*) FROM sqlite_master WHERE name = 'alarms' AND type IN ('table', 'view')");
-  if (!select) return std::unexpected(select.error());
-  auto row = (*select)->step();
-  if (!row) return std::unexpected(row.error());
-  return *row && (*select)->column_int64(0) > 0;
-}
-
-std::vector<std::string> flag_names(std::int64_t bits) {
+std::vector<std::string> flag_names(Flags flags) {
   std::vector<std::string> names;
   for (const Flag flag : all_flags()) {
-    if ((bits & static_cast<std::int64_t>(flag)) != 0) names.emplace_back(name(flag));
+    if (flags.has(flag)) names.emplace_back(name(flag));
   }
   return names;
 }
@@ -77,9 +62,11 @@ StatusApi::StatusApi(std::unique_ptr<State> state) : state_(std::move(state)) {}
 StatusApi::~StatusApi() = default;
 
 Result<std::unique_ptr<StatusApi>> StatusApi::open(const Config& config, LiveFiguresSource live) {
-  // A short busy timeout: a reader in WAL mode waits only in rare cases (a checkpoint resetting
-  // the log), and a request should rather fail than hold the service's loop.
-  auto store = Store::open_read_only(config.database, StoreOptions{.busy_timeout_ms = 200});
+  // A short wait: a reader in WAL mode waits only in rare cases (a checkpoint resetting the log),
+  // and a request should rather fail than hold the service's loop.
+  StoreOptions options;
+  options.lock_wait.give_up_after_ms = 200;
+  auto store = StoreReader::open(config.database, options);
   if (!store) return std::unexpected(store.error());
   auto zone = TimeZone::parse(config.timezone);
   if (!zone) return std::unexpected(zone.error());

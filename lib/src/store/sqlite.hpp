@@ -1,11 +1,14 @@
-// A thin owner of SQLite's C handles, used by the store (and by tests that need a second,
-// independent connection). One RAII owner per handle: Connection owns the sqlite3*, Statement
-// owns a sqlite3_stmt*. Every SQLite result code that is an error becomes a stagewell::Error
-// (kind database) in exactly one function, to_error().
+// A thin owner of SQLite's C handles, private to the store (tests that look at the file from
+// outside use it as a second, independent connection). One RAII owner per handle: Connection owns
+// the sqlite3*, Statement owns a sqlite3_stmt*. Every SQLite result code that is an error becomes a
+// stagewell::Error (kind database, or cancelled for a wait stopped by LockWait::cancel) in exactly
+// one function, to_error().
 //
-// Not thread-safe: a connection and its statements belong to one thread at a time.
+// Not thread-safe: a connection and its statements belong to one thread at a time. Connections on
+// different threads share nothing.
 #pragma once
 
+#include <chrono>
 #include <cstdint>
 #include <filesystem>
 #include <functional>
@@ -17,6 +20,7 @@
 #include <utility>
 
 #include "stagewell/result.hpp"
+#include "stagewell/store_options.hpp"
 
 struct sqlite3;
 struct sqlite3_stmt;
@@ -25,18 +29,14 @@ namespace stagewell::sqlite {
 
 class Connection;
 
-// The one conversion of a SQLite result code to an Error (kind database). `doing` says what was
-// being attempted ("opening /var/x.db"). Uses the connection's message when it belongs to `code`,
+// The one conversion of a SQLite result code to an Error (kind database; cancelled when
+// `cancelled`, a wait for a lock stopped by LockWait::cancel). `doing` says what was being
+// attempted ("opening /var/x.db"). Uses the connection's message when it belongs to `code`,
 // otherwise SQLite's generic text for the code (an injected fault has no message of its own).
-Error to_error(int code, sqlite3* db, std::string_view doing);
+Error to_error(int code, sqlite3* db, std::string_view doing, bool cancelled = false);
 
 // True for SQLITE_BUSY and its extended codes: another connection holds a lock we need.
 bool is_busy(int code);
-
-// Called before every sqlite3_step on a connection with the statement's SQL text. Returning a
-// result code makes that step fail with the code without running it. For tests only: this is the
-// seam where faults are injected ("fail the Nth step").
-using StepHook = std::function<std::optional<int>(std::string_view sql)>;
 
 // A prepared statement. Binding errors are kept and reported by the next step(), so that a
 // sequence of bind() calls needs no checks of its own. Parameter indexes start at 1, column
@@ -58,9 +58,8 @@ class Statement {
 
   // Runs one step: true when a row is ready, false when the statement is done.
   Result<bool> step();
-  // Runs one step and returns SQLite's raw result code (SQLITE_ROW, SQLITE_DONE or an error),
-  // for a caller that must react to a particular code (the busy retry). Bind errors come back as
-  // their code.
+  // Runs one step and returns SQLite's raw result code (SQLITE_ROW, SQLITE_DONE or an error), for
+  // a caller that must react to a particular code. Bind errors come back as their code.
   int step_code();
   // Steps until done, ignoring rows (DDL, pragmas, INSERT/UPDATE).
   Result<void> run();
@@ -139,21 +138,45 @@ class Connection {
   Result<std::string> query_text(std::string_view sql);
 
   std::int64_t changes() const;  // rows changed by the last INSERT/UPDATE/DELETE
-  bool in_transaction() const;   // false in autocommit mode
+  std::int64_t last_insert_rowid() const;
+  bool in_transaction() const;  // false in autocommit mode
   Access access() const { return access_; }
   const std::filesystem::path& path() const { return path_; }
   sqlite3* handle() const { return db_; }
 
   void set_step_hook(StepHook hook) { step_hook_ = std::move(hook); }
+  // Installs SQLite's busy handler: from now on every statement that meets a lock another
+  // connection holds waits as `wait` says. Without it a busy lock fails the statement at once.
+  void set_lock_wait(LockWait wait);
 
  private:
   friend class Statement;
   Connection(sqlite3* db, std::filesystem::path path, Access access);
 
+  // SQLite's busy handler: calls keep_waiting().
+  static int on_busy(void* connection, int calls);
+  // While a lock is busy: true after a pause, to look again; false to give up (the statement
+  // then fails with SQLITE_BUSY).
+  bool keep_waiting();
+  // After a step or prepare that returned `code`: ends the wait in progress, if any, reporting a
+  // noticed one that ended in success, and sets wait_cancelled_.
+  void end_wait(int code);
+
   sqlite3* db_ = nullptr;
   std::filesystem::path path_;
   Access access_;
   StepHook step_hook_;
+  LockWait lock_wait_;
+  bool waits_for_locks_ = false;  // set_lock_wait() was called
+  // The wait of the statement running now (one at a time: see the top of the file).
+  struct Wait {
+    bool active = false;
+    bool noticed = false;
+    bool cancelled = false;
+    std::int64_t paused_ms = 0;  // sum of the pauses so far
+    std::chrono::steady_clock::time_point started;
+  } wait_;
+  bool wait_cancelled_ = false;  // the last step or prepare failed busy after a cancelled wait
   // Looked up by string_view without building a std::string: cached() is on the per-reading path.
   struct SqlHash {
     using is_transparent = void;

@@ -1,0 +1,52 @@
+// Reading the rows of a statement: the loops every query of the store's tables shares.
+#pragma once
+
+#include <algorithm>
+#include <cstdint>
+#include <optional>
+#include <type_traits>
+#include <utility>
+
+#include "stagewell/flags.hpp"
+#include "store/sqlite.hpp"
+
+namespace stagewell::store_detail {
+
+// Steps `statement` to its end, calling `take(statement)` for each row.
+template <typename Take>
+Result<void> each_row(sqlite::Statement& statement, Take&& take) {
+  for (;;) {
+    auto row = statement.step();
+    if (!row) return std::unexpected(row.error());
+    if (!*row) return {};
+    take(static_cast<const sqlite::Statement&>(statement));
+  }
+}
+
+// `read(statement)` of the first row; nullopt when there is none.
+template <typename Read>
+auto first_row(sqlite::Statement& statement, Read&& read)
+    -> Result<std::optional<std::invoke_result_t<Read, const sqlite::Statement&>>> {
+  using Row = std::invoke_result_t<Read, const sqlite::Statement&>;
+  auto row = statement.step();
+  if (!row) return std::unexpected(row.error());
+  if (!*row) return std::optional<Row>{};
+  return std::optional<Row>(read(static_cast<const sqlite::Statement&>(statement)));
+}
+
+// A column that may be NULL.
+inline std::optional<std::int64_t> optional_int64(const sqlite::Statement& s, int column) {
+  if (s.column_is_null(column)) return std::nullopt;
+  return s.column_int64(column);
+}
+
+// A row count as a LIMIT parameter.
+inline std::int64_t row_limit(std::size_t rows) {
+  return static_cast<std::int64_t>(std::min<std::size_t>(rows, INT64_MAX));
+}
+
+inline Flags flags_column(const sqlite::Statement& s, int column) {
+  return Flags(static_cast<std::uint32_t>(s.column_int64(column)));
+}
+
+}  // namespace stagewell::store_detail

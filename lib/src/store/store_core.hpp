@@ -1,0 +1,85 @@
+// What a Store holds, shared by the files that implement the store and its tables, and how the
+// tables write through a WriteBatch.
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <string_view>
+#include <type_traits>
+#include <utility>
+
+#include "stagewell/store.hpp"
+#include "store/sqlite.hpp"
+
+namespace stagewell::store_detail {
+
+struct Core {
+  std::unique_ptr<sqlite::Connection> connection;
+  StoreOptions options;
+  int schema_version = 0;
+  bool batch_open = false;
+  // The per-reading INSERT, held once prepared so that each reading skips the statement cache's
+  // look-up (which hashes the SQL text). Owned by the connection's cache.
+  sqlite::Statement* insert_reading = nullptr;
+  // Batches committed that rewrote stored readings (Store::stored_readings_changed).
+  std::int64_t readings_rewrites = 0;
+
+  sqlite::Connection& db() { return *connection; }
+
+  // Fails (invalid_argument) on a read-only store, naming what was attempted.
+  Result<void> require_writable(std::string_view doing) const;
+  // Fails (invalid_argument) while a batch is open: SitesTable::ensure and VersionsTable::record
+  // run in their own transactions, which would otherwise join the batch and vanish if it rolls
+  // back.
+  Result<void> require_no_batch(std::string_view doing) const;
+};
+
+// Statements on `readings` that the batch's own writes and ReadingsTable share
+// (readings_table.cpp).
+Result<std::optional<double>> stored_stage(sqlite::Connection& connection, SiteKey site,
+                                           std::int64_t time_ms);
+// ORs `flags` into a stored reading; false when there is none at that site and time.
+Result<bool> or_flags(sqlite::Connection& connection, SiteKey site, std::int64_t time_ms,
+                      Flags flags);
+
+// How a table writes in a batch: `write` gets the connection once the batch is known to be open
+// on `core`. A failed write does not spoil the batch (unlike the batch's own writes): SQLite undoes
+// the failed statement, and the caller decides whether the rest is committed (the alarms' unique
+// index refuses a second open alarm and the batch goes on; the ingest rolls back when the daily
+// figures cannot be written).
+struct BatchAccess {
+  // Store::begin().
+  static Result<WriteBatch> begin(Core& core);
+
+  template <typename Write>
+  static auto write(WriteBatch& batch, Core* core, Write&& write)
+      -> std::invoke_result_t<Write, sqlite::Connection&> {
+    using R = std::invoke_result_t<Write, sqlite::Connection&>;
+    if (auto ok = batch.check_usable(); !ok) return R(std::unexpected(ok.error()));
+    if (batch.store_ != core) {
+      return R(fail(ErrorKind::invalid_argument, "a write batch of another store was given"));
+    }
+    return std::forward<Write>(write)(core->db());
+  }
+  // The batch rewrote stored readings: counted when it commits.
+  static void rewrote_readings(WriteBatch& batch) { batch.rewrote_readings_ = true; }
+};
+
+// Runs `write(batch)` in a batch of its own, committed when it succeeds (rolled back otherwise):
+// for the writes that come before any batch of input (SitesTable::ensure, VersionsTable::record).
+// REQUIRES: read-write; no batch open (`doing` names the write in the refusal).
+template <typename Write>
+auto in_own_batch(Core& core, std::string_view doing, Write&& write)
+    -> std::invoke_result_t<Write, WriteBatch&> {
+  using R = std::invoke_result_t<Write, WriteBatch&>;
+  if (auto ok = core.require_writable(doing); !ok) return R(std::unexpected(ok.error()));
+  if (auto ok = core.require_no_batch(doing); !ok) return R(std::unexpected(ok.error()));
+  auto batch = BatchAccess::begin(core);
+  if (!batch) return R(std::unexpected(batch.error()));
+  R result = std::forward<Write>(write)(*batch);
+  if (!result) return result;  // the batch rolls back as it goes
+  if (auto committed = batch->commit(); !committed) return R(std::unexpected(committed.error()));
+  return result;
+}
+
+}  // namespace stagewell::store_detail
