@@ -78,13 +78,13 @@ sites:
     return path
 
 
-def year_csv(path, minutes):
+def year_csv(path, minutes, sites=SITES, first_minute=0):
     """An invented year: a slow seasonal swing, a daily ripple, two storms (stage in m)."""
     with open(path, "w") as f:
         f.write("site,time,stage\n")
-        for i, site in enumerate(SITES):
+        for i, site in enumerate(sites):
             rows = []
-            for m in range(minutes):
+            for m in range(first_minute, first_minute + minutes):
                 day = m / 1440.0
                 stage = (0.6 + 0.25 * math.sin(2 * math.pi * day / 365.0 + i)
                          + 0.03 * math.sin(2 * math.pi * day)
@@ -221,11 +221,17 @@ def ingest_round(program, csv_path, load):
         pollers = []
         try:
             wait_port(http_port)
+            # The month before the year, stored first (in every round, so that each starts alike):
+            # what the month-long answers read (20,000 readings, the API's cap: about 2 MB).
+            month_csv = os.path.join(root, "month.csv")
+            year_csv(month_csv, 31 * 1440, SITES[:1], -31 * 1440)
+            os.rename(month_csv, os.path.join(root, "incoming", "month.csv"))
+            if not service.wait_for("read to the end", 60):
+                sys.exit("the month was not stored: " + service.log()[-2000:])
             if load in ("sites", "sites+month"):
                 pollers.append(Poller(http_port, ["/api/sites"], 0.05))
             if load == "sites+month":
-                # The first month of the file's first site: stored within the first second.
-                month = f"/api/sites/north/readings?from={iso(T0)}&to={iso(T0 + 31 * 86_400_000)}"
+                month = f"/api/sites/north/readings?from={iso(T0 - 31 * 86_400_000)}&to={iso(T0)}"
                 pollers.append(Poller(http_port, [month], 0))
             for poller in pollers:
                 poller.start()
@@ -236,7 +242,7 @@ def ingest_round(program, csv_path, load):
             os.utime(part, (past, past))
             start = time.monotonic()
             os.rename(part, os.path.join(root, "incoming", "year.csv"))
-            if not service.wait_for("read to the end", 600):
+            if not service.wait_for("year.csv: read to the end", 600):
                 sys.exit("the file was not read to its end: " + service.log()[-2000:])
             elapsed = time.monotonic() - start
             for poller in pollers:
@@ -286,7 +292,9 @@ def main():
                     latencies[load] += pollers[0].times
                 extra = ""
                 if load == "sites+month":
-                    extra = f", {len(pollers[1].times)} month-long answers"
+                    month = pollers[1].times
+                    extra = (f", {len(month)} month-long answers ({pollers[1].failures} failed), "
+                             f"median {statistics.median(month) * 1000:.0f} ms")
                 print(f"   round {r + 1}, load {load:11}: {elapsed:6.2f} s, "
                       f"{readings / elapsed:9,.0f} readings/s{extra}", flush=True)
             for load in ratios:
