@@ -45,14 +45,18 @@ void HttpReaders::give_back(std::unique_ptr<StatusApi> api) {
 }
 
 void HttpReaders::answer(HttpQuestion question, std::function<void(HttpAnswer)> done) {
-  asio::post(pool_, [this, question = std::move(question), done = std::move(done)] {
+  // `done` holds the connection: it is moved along, never copied, so that the connection is
+  // released on the loop's thread, not on a reader's.
+  asio::post(pool_, [this, question = std::move(question), done = std::move(done)]() mutable {
     std::string error;
     auto api = borrow(error);
     HttpAnswer answer =
         api ? api->answer(question.method, question.target, question.accept, system_now_ms())
             : json_error(503, fmt::format("the database cannot be read now: {}", error));
     if (api) give_back(std::move(api));
-    asio::post(loop_, [done, answer = std::move(answer)]() mutable { done(std::move(answer)); });
+    asio::post(loop_, [done = std::move(done), answer = std::move(answer)]() mutable {
+      done(std::move(answer));
+    });
   });
 }
 

@@ -124,8 +124,7 @@ bool Service::open_network() {
   tcp_ = std::move(*tcp);
   if (config_->http) {
     // The readers open their read-only connections on their own threads, at the first request.
-    auto readers = std::make_unique<HttpReaders>(
-        io_, *config_, [writer = writer_.get()] { return writer->live(); });
+    auto readers = std::make_unique<HttpReaders>(io_, *config_, writer_->live());
     auto server = HttpServer::open(io_, *config_->http, std::move(readers));
     if (!server) {
       spdlog::error("{}", server.error().message);

@@ -326,9 +326,10 @@ void WriterCore::arm_commit_timer() {
 void WriterCore::after_commit() {
   if (!ingestor_) return;
   {
-    std::lock_guard lock(owner_.live_mutex_);
-    owner_.live_.counts = carried_;
-    owner_.live_.counts.add(ingestor_->counts());
+    auto& board = *owner_.live_;
+    std::lock_guard lock(board.mutex);
+    board.figures.counts = carried_;
+    board.figures.counts.add(ingestor_->counts());
   }
   const auto now = ingestor_->now_ms();
   if (now - last_report_ms_ >= kReportEveryMs && ingestor_->counts().commits != reported_.commits) {
@@ -449,7 +450,7 @@ Writer::Writer(asio::io_context& loop)
     : loop_(loop),
       work_(asio::make_work_guard(io_)),
       core_(std::make_unique<WriterCore>(*this, io_)) {
-  live_.started_ms = system_now_ms();
+  live_->figures.started_ms = system_now_ms();
   thread_ = std::thread([this] { io_.run(); });
 }
 
@@ -465,14 +466,14 @@ void Writer::post(Work work) {
 }
 
 void Writer::open(Config config, std::function<void(Result<int>)> done) {
-  post([this, config = std::move(config), done = std::move(done)] {
+  post([this, config = std::move(config), done = std::move(done)]() mutable {
     auto opened = core_->open(config);
-    asio::post(loop_, [done, opened] { done(opened); });
+    asio::post(loop_, [done = std::move(done), opened] { done(opened); });
   });
 }
 
 void Writer::reload(Config config, std::function<void(Reloaded)> done) {
-  post([this, config = std::move(config), done = std::move(done)] {
+  post([this, config = std::move(config), done = std::move(done)]() mutable {
     Reloaded outcome;
     const Config* running = core_->config();
     const std::optional<Config> previous = running ? std::optional<Config>(*running) : std::nullopt;
@@ -486,15 +487,15 @@ void Writer::reload(Config config, std::function<void(Reloaded)> done) {
       outcome.error = opened.error().message;
       outcome.running = previous && core_->open(*previous).has_value();
     }
-    asio::post(loop_, [done, outcome] { done(outcome); });
+    asio::post(loop_, [done = std::move(done), outcome] { done(outcome); });
   });
 }
 
 void Writer::stop(std::function<void(int)> done) {
-  post([this, done = std::move(done)] {
+  post([this, done = std::move(done)]() mutable {
     const int status = core_->stop();
     work_.reset();  // run() returns once the handlers cancelled by the stop have run
-    asio::post(loop_, [done, status] { done(status); });
+    asio::post(loop_, [done = std::move(done), status] { done(status); });
   });
 }
 
@@ -514,9 +515,11 @@ void Writer::disconnect(std::uint64_t connection) {
   post([this, connection] { core_->disconnect(connection); });
 }
 
-LiveFigures Writer::live() const {
-  std::lock_guard lock(live_mutex_);
-  return live_;
+LiveFiguresSource Writer::live() const {
+  return [board = live_] {
+    std::lock_guard lock(board->mutex);
+    return board->figures;
+  };
 }
 
 }  // namespace stagewell::service

@@ -72,8 +72,9 @@ class Writer {
   void finish(std::uint64_t connection);
   void disconnect(std::uint64_t connection);
 
-  // The counters the metrics show: since the service started, across reloads.
-  LiveFigures live() const;
+  // The counters the metrics show (since the service started, across reloads), for any thread;
+  // the source stays valid after the Writer is gone.
+  LiveFiguresSource live() const;
 
  private:
   template <typename Work>
@@ -84,8 +85,11 @@ class Writer {
   boost::asio::executor_work_guard<boost::asio::io_context::executor_type> work_;
   std::shared_ptr<std::atomic<bool>> cancel_ = std::make_shared<std::atomic<bool>>(false);
   std::unique_ptr<WriterCore> core_;  // used on the writer's thread only
-  mutable std::mutex live_mutex_;
-  LiveFigures live_;  // guarded by live_mutex_; published by the core after each commit
+  struct LiveBoard {
+    std::mutex mutex;
+    LiveFigures figures;  // guarded by mutex; published by the core after each commit
+  };
+  std::shared_ptr<LiveBoard> live_ = std::make_shared<LiveBoard>();
   std::thread thread_;
 
   friend class WriterCore;
