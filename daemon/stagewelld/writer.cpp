@@ -179,7 +179,11 @@ Result<int> WriterCore::open(const Config& config) {
 
 bool WriterCore::close(std::string_view tcp_reason) {
   if (!ingestor_) return true;
+  // Whatever was posted or armed for this configuration does nothing when it comes.
   ++generation_;
+  poll_posted_ = false;
+  recompute_posted_ = false;
+  commit_timer_armed_ = false;
   poll_timer_.cancel();
   alarm_timer_.cancel();
   commit_timer_.cancel();
@@ -250,14 +254,15 @@ void WriterCore::schedule_poll(bool more_waiting) {
     if (poll_posted_) return;
     poll_posted_ = true;
     asio::post(io_, [this, generation = generation_] {
+      if (generation != generation_) return;  // posted for a closed configuration
       poll_posted_ = false;
-      if (generation == generation_) poll();
+      poll();
     });
     return;
   }
   poll_timer_.expires_after(kIdlePoll);
-  poll_timer_.async_wait([this](const boost::system::error_code& error) {
-    if (!error) poll();  // operation_aborted: cancelled at a stop or reload
+  poll_timer_.async_wait([this, generation = generation_](const boost::system::error_code& error) {
+    if (!error && generation == generation_) poll();  // else cancelled at a stop or reload
   });
 }
 
@@ -315,12 +320,14 @@ void WriterCore::arm_commit_timer() {
   if (!usable() || commit_timer_armed_ || !ingestor_->batch_open()) return;
   commit_timer_armed_ = true;
   commit_timer_.expires_after(std::chrono::milliseconds(IngestorOptions{}.max_batch_age_ms));
-  commit_timer_.async_wait([this](const boost::system::error_code& error) {
-    commit_timer_armed_ = false;
-    if (error || !usable()) return;
-    if (ingestor_->batch_open()) commit();
-    arm_commit_timer();
-  });
+  commit_timer_.async_wait(
+      [this, generation = generation_](const boost::system::error_code& error) {
+        if (error || generation != generation_) return;  // cancelled by a close, which disarmed it
+        commit_timer_armed_ = false;
+        if (!usable()) return;
+        if (ingestor_->batch_open()) commit();
+        arm_commit_timer();
+      });
 }
 
 void WriterCore::after_commit() {
@@ -362,8 +369,8 @@ void WriterCore::recover(const Error& error) {
     return;
   }
   poll_timer_.expires_after(kRecoveryPause);
-  poll_timer_.async_wait([this](const boost::system::error_code& cancelled) {
-    if (!cancelled) poll();
+  poll_timer_.async_wait([this, generation = generation_](const boost::system::error_code& error) {
+    if (!error && generation == generation_) poll();
   });
 }
 
@@ -372,8 +379,9 @@ void WriterCore::recover(const Error& error) {
 void WriterCore::schedule_alarm_tick() {
   if (!usable()) return;
   alarm_timer_.expires_after(kAlarmTick);
-  alarm_timer_.async_wait([this](const boost::system::error_code& error) {
-    if (error || !usable()) return;  // operation_aborted: cancelled at a stop or reload
+  alarm_timer_.async_wait([this, generation = generation_](const boost::system::error_code& error) {
+    // operation_aborted, or another generation: cancelled at a stop or reload.
+    if (error || generation != generation_ || !usable()) return;
     auto ticked = ingestor_->tick_alarms();
     if (!ticked) {
       recover(ticked.error());
@@ -411,8 +419,9 @@ void WriterCore::post_recompute_step() {
   if (recomputations_.empty() || recompute_posted_ || !usable()) return;
   recompute_posted_ = true;
   asio::post(io_, [this, generation = generation_] {
+    if (generation != generation_) return;  // posted for a closed configuration
     recompute_posted_ = false;
-    if (generation == generation_) recompute_step();
+    recompute_step();
   });
 }
 
