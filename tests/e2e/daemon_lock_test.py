@@ -81,14 +81,6 @@ def stored_minutes(db):
     return {round((u * 1000 - T0) / MIN) for (u,) in ds.query(db, "SELECT unix_time FROM discharge")}
 
 
-def discharges_right(db):
-    worst = 0.0
-    for stage, discharge in ds.query(db, "SELECT stage, discharge FROM discharge"):
-        want = ds.manning(ds.rectangular(2.0, 1.5), 0.014, 0.001, stage)[0]
-        worst = max(worst, abs(discharge - want) / want)
-    return worst
-
-
 def main():
     args = ds.parse_args()
     daemon_program, _ = ds.programs(args)
@@ -174,7 +166,7 @@ def main():
                 lambda: set(range(300, 400)) <= stored_minutes(db), 30), daemon.log())
             R.check("every reading stored once", ds.count(
                 db, "SELECT count(*) FROM discharge") == len(acknowledged) + 100)
-            worst = discharges_right(db)
+            worst = ds.worst_discharge_error(db, ds.rectangular(2.0, 1.5), 0.014, 0.001)
             R.check("every discharge is Manning's", worst < 5e-4, f"worst {worst:.2e}")
 
             # A second SIGTERM ends it at once, lock or not.
