@@ -28,17 +28,18 @@ constexpr std::string_view kBusyAnswer =
 
 }  // namespace
 
-HttpServer::HttpServer(asio::io_context& io, const HttpSpec& spec, std::unique_ptr<StatusApi> api)
-    : io_(io), spec_(spec), api_(std::move(api)), acceptor_(io), accept_retry_(io) {}
+HttpServer::HttpServer(asio::io_context& io, const HttpSpec& spec,
+                       std::unique_ptr<HttpReaders> readers)
+    : io_(io), spec_(spec), readers_(std::move(readers)), acceptor_(io), accept_retry_(io) {}
 
 HttpServer::~HttpServer() { stop(); }
 
 Result<std::shared_ptr<HttpServer>> HttpServer::open(asio::io_context& io, const HttpSpec& spec,
-                                                     std::unique_ptr<StatusApi> api) {
+                                                     std::unique_ptr<HttpReaders> readers) {
   const std::string where = spec.address.find(':') != std::string::npos
                                 ? fmt::format("[{}]:{}", spec.address, spec.port)
                                 : fmt::format("{}:{}", spec.address, spec.port);
-  std::shared_ptr<HttpServer> server(new HttpServer(io, spec, std::move(api)));
+  std::shared_ptr<HttpServer> server(new HttpServer(io, spec, std::move(readers)));
   error_code error;
   const auto address = asio::ip::make_address(spec.address, error);
   if (error)

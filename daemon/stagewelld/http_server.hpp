@@ -1,5 +1,6 @@
 // The service's HTTP server (config `http:`): the status page, the JSON API and the metrics of
-// StatusApi (stagewell/status_api.hpp), carried over Boost.Beast on the service's io_context.
+// StatusApi (stagewell/status_api.hpp), carried over Boost.Beast on the service's io_context and
+// answered on reader threads (http_readers.hpp).
 //
 // Limits on every connection (README, "HTTP: the status page, API and metrics"): at most
 // max_connections at once (more are answered 503 and closed); a request's header must arrive whole
@@ -19,9 +20,9 @@
 #include <memory>
 #include <string>
 
+#include "http_readers.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/result.hpp"
-#include "stagewell/status_api.hpp"
 
 namespace stagewell::service {
 
@@ -31,25 +32,26 @@ class HttpServer : public std::enable_shared_from_this<HttpServer> {
  public:
   // Binds and listens. Fails (with the address and the reason) when the address cannot be used.
   static Result<std::shared_ptr<HttpServer>> open(boost::asio::io_context& io, const HttpSpec& spec,
-                                                  std::unique_ptr<StatusApi> api);
+                                                  std::unique_ptr<HttpReaders> readers);
   ~HttpServer();
 
   // Accepts no more and closes every connection (shutdown, reload).
   void stop();
 
   // ---- for its connections ----
-  StatusApi& api() { return *api_; }
+  HttpReaders& readers() { return *readers_; }
   const HttpSpec& spec() const { return spec_; }
   void remove(const HttpSession* session);
 
  private:
-  HttpServer(boost::asio::io_context& io, const HttpSpec& spec, std::unique_ptr<StatusApi> api);
+  HttpServer(boost::asio::io_context& io, const HttpSpec& spec,
+             std::unique_ptr<HttpReaders> readers);
   void accept();
   void on_accept(const boost::system::error_code& error, boost::asio::ip::tcp::socket socket);
 
   boost::asio::io_context& io_;
   HttpSpec spec_;
-  std::unique_ptr<StatusApi> api_;
+  std::unique_ptr<HttpReaders> readers_;
   boost::asio::ip::tcp::acceptor acceptor_;
   boost::asio::steady_timer accept_retry_;
   std::map<const HttpSession*, std::weak_ptr<HttpSession>> sessions_;

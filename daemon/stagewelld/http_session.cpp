@@ -8,8 +8,8 @@
 #include <boost/beast/http/write.hpp>
 #include <chrono>
 
+#include "http_readers.hpp"
 #include "http_server.hpp"
-#include "stagewell/timestamp.hpp"
 
 namespace stagewell::service {
 namespace {
@@ -84,15 +84,20 @@ void HttpSession::answer() {
   if (!server) return close();
   const auto& request = parser_->get();
   head_ = request.method() == http::verb::head;
-  const auto accept = request[http::field::accept];
-  HttpAnswer answer = server->api().answer(
-      std::string_view(request.method_string().data(), request.method_string().size()),
-      std::string_view(request.target().data(), request.target().size()),
-      std::string_view(accept.data(), accept.size()), system_now_ms());
-  spdlog::debug("http: {} {} -> {}", std::string_view(request.method_string()),
-                std::string_view(request.target()), answer.status);
+  keep_alive_ = request.keep_alive();
+  version_ = request.version();
+  HttpQuestion question{std::string(request.method_string()), std::string(request.target()),
+                        std::string(request[http::field::accept])};
+  spdlog::debug("http: {} {}", question.method, question.target);
+  // Answered on a reader's thread; the connection reads nothing meanwhile.
+  server->readers().answer(std::move(question), [self = shared_from_this()](HttpAnswer answer) {
+    self->respond(std::move(answer));
+  });
+}
+
+void HttpSession::respond(HttpAnswer answer) {
   response_ = {};
-  response_.version(request.version());
+  response_.version(version_);
   response_.result(static_cast<unsigned>(answer.status));
   response_.set(http::field::server, "stagewelld");
   response_.set(http::field::content_type, answer.content_type);
@@ -100,7 +105,7 @@ void HttpSession::answer() {
   for (const auto& [name, value] : answer.headers) response_.set(name, value);
   response_.body() = std::move(answer.body);
   response_.prepare_payload();
-  write(request.keep_alive());
+  write(keep_alive_);
 }
 
 void HttpSession::refuse(int status, std::string_view message) {

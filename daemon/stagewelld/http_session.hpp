@@ -1,5 +1,6 @@
-// One HTTP connection of the HttpServer: reads a request within the limits, answers it from the
-// StatusApi, and either reads the next (keep-alive) or closes.
+// One HTTP connection of the HttpServer: reads a request within the limits, has it answered on a
+// reader's thread (http_readers.hpp), writes the answer, and either reads the next (keep-alive) or
+// closes.
 #pragma once
 
 // clang-format off
@@ -13,6 +14,8 @@
 #include <boost/beast/http/string_body.hpp>
 #include <memory>
 #include <optional>
+
+#include "stagewell/status_api.hpp"
 
 namespace stagewell::service {
 
@@ -34,6 +37,7 @@ class HttpSession : public std::enable_shared_from_this<HttpSession> {
   void read();
   void on_read(const boost::system::error_code& error);
   void answer();
+  void respond(HttpAnswer answer);
   void refuse(int status, std::string_view message);
   void write(bool keep_alive);
 
@@ -43,6 +47,8 @@ class HttpSession : public std::enable_shared_from_this<HttpSession> {
   std::optional<boost::beast::http::request_parser<boost::beast::http::string_body>> parser_;
   boost::beast::http::response<boost::beast::http::string_body> response_;
   bool head_ = false;  // the request was HEAD: send the header fields only
+  bool keep_alive_ = false;
+  unsigned version_ = 11;
 };
 
 }  // namespace stagewell::service

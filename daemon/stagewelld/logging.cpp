@@ -1,10 +1,13 @@
 #include "logging.hpp"
 
 #include <fmt/format.h>
-#include <spdlog/sinks/basic_file_sink.h>
+#include <spdlog/details/file_helper.h>
+#include <spdlog/sinks/base_sink.h>
 #include <spdlog/sinks/stdout_sinks.h>
 #include <spdlog/spdlog.h>
 #include <sys/stat.h>
+
+#include <mutex>
 
 namespace stagewell::service {
 namespace {
@@ -17,47 +20,84 @@ std::string identity_of(const std::filesystem::path& path) {
 
 }  // namespace
 
-Logging::Logging(const std::string& level) : level_(level) { install(); }
-
-void Logging::install() {
-  std::vector<spdlog::sink_ptr> sinks;
-  sinks.push_back(std::make_shared<spdlog::sinks::stderr_sink_mt>());
-  if (file_) {
-    try {
-      sinks.push_back(std::make_shared<spdlog::sinks::basic_file_sink_mt>(file_->string()));
-      file_identity_ = identity_of(*file_);
-    } catch (const spdlog::spdlog_ex& e) {
-      file_.reset();
-      file_identity_.clear();
-      spdlog::error("cannot open the log file: {}", e.what());
-    }
+// A file sink whose file can be changed or reopened while other threads log through it: every
+// change takes the sink's lock, which spdlog also takes around each line.
+class ReopenableFileSink final : public spdlog::sinks::base_sink<std::mutex> {
+ public:
+  // Opens `path` for appending (nothing when empty). Returns a message when it cannot.
+  std::optional<std::string> open(std::optional<std::filesystem::path> path) {
+    std::lock_guard lock(mutex_);
+    return open_locked(std::move(path));
   }
+  std::optional<std::string> reopen() {
+    std::lock_guard lock(mutex_);
+    return open_locked(path_);
+  }
+  void reopen_if_rotated() {
+    std::lock_guard lock(mutex_);
+    if (path_ && identity_of(*path_) != identity_) open_locked(path_);
+  }
+
+ protected:
+  void sink_it_(const spdlog::details::log_msg& message) override {
+    if (!path_) return;
+    spdlog::memory_buf_t formatted;
+    formatter_->format(message, formatted);
+    file_.write(formatted);
+  }
+  void flush_() override {
+    if (path_) file_.flush();
+  }
+
+ private:
+  std::optional<std::string> open_locked(std::optional<std::filesystem::path> path) {
+    file_.close();
+    path_.reset();
+    identity_.clear();
+    if (!path) return std::nullopt;
+    std::error_code ignored;
+    std::filesystem::create_directories(path->parent_path(), ignored);
+    try {
+      file_.open(path->string());
+    } catch (const spdlog::spdlog_ex& e) {
+      return fmt::format("cannot open log file {}: {}", path->string(), e.what());
+    }
+    path_ = std::move(path);
+    identity_ = identity_of(*path_);
+    return std::nullopt;
+  }
+
+  spdlog::details::file_helper file_;
+  std::optional<std::filesystem::path> path_;  // empty: no file
+  std::string identity_;                       // dev:inode of the file open now
+};
+
+Logging::Logging(const std::string& level) : file_sink_(std::make_shared<ReopenableFileSink>()) {
+  std::vector<spdlog::sink_ptr> sinks{std::make_shared<spdlog::sinks::stderr_sink_mt>(),
+                                      file_sink_};
   auto logger = std::make_shared<spdlog::logger>("stagewell", sinks.begin(), sinks.end());
   logger->set_pattern("%Y-%m-%dT%H:%M:%S.%e%z %l %v");
-  auto level = spdlog::level::from_str(level_);
-  // from_str answers "off" for a name it does not know; an unknown level must not silence logging.
-  if (level == spdlog::level::off && level_ != "off") level = spdlog::level::info;
-  logger->set_level(level);
   logger->flush_on(spdlog::level::info);
-  spdlog::set_default_logger(logger);
+  spdlog::set_default_logger(logger);  // before any other thread exists
+  set_level(level);
+}
+
+void Logging::set_level(const std::string& name) {
+  auto level = spdlog::level::from_str(name);
+  // from_str answers "off" for a name it does not know; an unknown level must not silence logging.
+  if (level == spdlog::level::off && name != "off") level = spdlog::level::info;
+  spdlog::default_logger_raw()->set_level(level);
 }
 
 std::optional<std::string> Logging::apply(const LogSpec& spec) {
-  level_ = spec.level;
-  file_ = spec.file;
-  if (file_) {
-    std::error_code ignored;
-    std::filesystem::create_directories(file_->parent_path(), ignored);
-  }
-  install();
-  if (spec.file && !file_) return fmt::format("cannot open log file {}", spec.file->string());
-  return std::nullopt;
+  set_level(spec.level);
+  return file_sink_->open(spec.file);
 }
 
-void Logging::reopen_if_rotated() {
-  if (file_ && identity_of(*file_) != file_identity_) install();
-}
+void Logging::reopen_if_rotated() { file_sink_->reopen_if_rotated(); }
 
-void Logging::reopen() { install(); }
+void Logging::reopen() {
+  if (auto problem = file_sink_->reopen()) spdlog::error("{}", *problem);
+}
 
 }  // namespace stagewell::service

@@ -1,15 +1,24 @@
 // Logging for the service: spdlog to stderr (journald keeps it under systemd) and, when
 // configured, to a file that survives rotation (reopened on SIGHUP and whenever the path stops
 // naming the file being written, as after logrotate's rename).
+//
+// Thread-safety: the service logs from its loop, its writer and its HTTP readers at once. The
+// logger is installed once and never replaced; apply() and the reopening change its level
+// (atomic in spdlog) and the file behind its file sink (under the sink's own lock), so a line
+// being written on another thread is never cut or lost. Call apply() and the reopen functions
+// from one thread (the loop).
 #pragma once
 
 #include <filesystem>
+#include <memory>
 #include <optional>
 #include <string>
 
 #include "stagewell/config.hpp"
 
 namespace stagewell::service {
+
+class ReopenableFileSink;
 
 class Logging {
  public:
@@ -25,11 +34,9 @@ class Logging {
   void reopen();
 
  private:
-  void install();
+  void set_level(const std::string& level);
 
-  std::string level_;
-  std::optional<std::filesystem::path> file_;
-  std::string file_identity_;
+  std::shared_ptr<ReopenableFileSink> file_sink_;
 };
 
 }  // namespace stagewell::service

@@ -2,31 +2,20 @@
 
 #include <spdlog/spdlog.h>
 
-#include <boost/asio/post.hpp>
 #include <chrono>
 #include <csignal>
 #include <filesystem>
-#include <variant>
-
-#include "stagewell/timestamp.hpp"
 
 namespace stagewell::service {
 namespace {
 
 namespace fs = std::filesystem;
 
-// Bytes one source may read per poll before the loop moves on (keeps signals and other sources
-// responsive while a large file is read).
-constexpr std::size_t kBytesPerPoll = 1 << 20;
-// How often sources are polled for new data when none was waiting.
-constexpr auto kIdlePoll = std::chrono::milliseconds(200);
-// Pause after a failure of the store before reading again.
-constexpr auto kRecoveryPause = std::chrono::seconds(1);
-// How often the alarms judged by the clock (stale sensors) are evaluated. A stale alarm is raised
-// at most this long after its `after` has passed.
-constexpr auto kAlarmTick = std::chrono::seconds(10);
-// How often a line of totals is logged while readings arrive.
-constexpr std::int64_t kReportEveryMs = 60'000;
+// How often the loop checks whether the log file was rotated away.
+constexpr auto kLogCheck = std::chrono::seconds(1);
+// From a stop signal, how long the writer may go on waiting for a lock another process holds on
+// the database before it gives up (what it had not committed is read again at the next start).
+constexpr auto kStopLockWait = std::chrono::milliseconds(1000);
 
 void ensure_directory(const fs::path& path, std::string_view what) {
   if (path.empty() || fs::exists(path)) return;
@@ -39,45 +28,29 @@ void ensure_directory(const fs::path& path, std::string_view what) {
   }
 }
 
-std::string summary(const IngestCounts& counts) {
-  std::string flagged;
-  for (const auto& [flag, count] : counts.flagged_by_flag) {
-    flagged += fmt::format("{}{} {}", flagged.empty() ? "" : ", ", count, flag);
+void ensure_directories(const Config& config) {
+  ensure_directory(config.database.parent_path(), "database directory");
+  for (const auto& spec : config.sources) {
+    if (spec.type == SourceSpec::Type::tcp) continue;
+    ensure_directory(spec.type == SourceSpec::Type::directory ? spec.path : spec.path.parent_path(),
+                     "source directory");
   }
-  std::string rejected;
-  for (const auto& [reason, count] : counts.rejected_by_reason) {
-    rejected += fmt::format("{}{} {}", rejected.empty() ? "" : ", ", count, reason);
-  }
-  return fmt::format("{} readings stored, {} repeats ignored, {} lines rejected{}{}", counts.stored,
-                     counts.duplicates, counts.rejected,
-                     flagged.empty() ? "" : "; flagged: " + flagged,
-                     rejected.empty() ? "" : "; rejected: " + rejected);
 }
 
 }  // namespace
-
-struct Service::Source {
-  std::variant<DropFolder, TailedFile> impl;
-  std::string label;
-  std::string trouble;  // the source's last error, logged once rather than at every poll
-
-  Result<bool> poll(std::size_t max_bytes) {
-    return std::visit([&](auto& source) { return source.poll(max_bytes); }, impl);
-  }
-  void reset() {
-    std::visit([](auto& source) { source.reset(); }, impl);
-  }
-};
 
 Service::Service(boost::asio::io_context& io, std::string config_path, Logging& logging)
     : io_(io),
       config_path_(std::move(config_path)),
       logging_(logging),
       signals_(io),
-      poll_timer_(io),
-      alarm_timer_(io) {}
+      log_timer_(io),
+      stop_timer_(io) {}
 
-Service::~Service() = default;
+Service::~Service() {
+  close_network();
+  writer_.reset();  // joins the writer's thread
+}
 
 bool Service::start() {
   auto config = load_config(config_path_);
@@ -88,215 +61,100 @@ bool Service::start() {
     return false;
   }
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
-  started_ms_ = system_now_ms();
-  if (!open(*config)) return false;
+  ensure_directories(*config);
+  // One service per database: taken before the database is opened.
+  auto lock = ServiceLock::acquire(config->database);
+  if (!lock) {
+    spdlog::error("{}", lock.error().message);
+    return false;
+  }
+  lock_ = std::move(*lock);
+  busy_.emplace(boost::asio::make_work_guard(io_));
   signals_.add(SIGINT);
   signals_.add(SIGTERM);
   signals_.add(SIGHUP);
   wait_for_signal();
-  schedule_poll(true);
-  schedule_alarm_tick();
-  plan_recomputation();
+  schedule_log_check();
+  writer_ = std::make_unique<Writer>(io_);
+  writer_->open(
+      *config, [this, config = *config](Result<int> result) { opened(config, std::move(result)); });
   return true;
 }
 
-bool Service::open(const Config& config) {
-  ensure_directory(config.database.parent_path(), "database directory");
-  // One service per database: taken before the database is opened, kept across reloads that
-  // keep the database, and moved when a reload names another one.
-  if (!lock_ || lock_->path() != ServiceLock::path_for(config.database)) {
-    auto lock = ServiceLock::acquire(config.database);
-    if (!lock) {
-      spdlog::error("{}", lock.error().message);
-      return false;
-    }
-    lock_ = std::move(*lock);
+void Service::opened(const Config& config, Result<int> schema_version) {
+  if (stopping_) return;  // the stop has its own end
+  if (!schema_version) {
+    spdlog::error("{}", schema_version.error().message);
+    exit_code_ = 1;
+    shut_down();
+    return;
   }
-  for (const auto& spec : config.sources) {
-    ensure_directory(spec.type == SourceSpec::Type::directory ? spec.path : spec.path.parent_path(),
-                     "source directory");
+  config_ = config;
+  if (!open_network()) {
+    exit_code_ = 1;
+    shut_down();
+    return;
   }
-  IngestorOptions options;
-  // The store logs nothing itself: a long wait for another process's lock is told here.
-  options.store.lock_wait.on_waiting = [path = config.database.string()](std::int64_t waited_ms) {
-    spdlog::warn("store: waiting for a lock another connection holds on {} ({} ms so far)", path,
-                 waited_ms);
-  };
-  options.store.lock_wait.on_resumed = [](std::int64_t waited_ms) {
-    spdlog::info("store: the lock was released after {} ms; going on", waited_ms);
-  };
-  auto ingestor = Ingestor::open(config, options, system_now_ms);
-  if (!ingestor) {
-    spdlog::error("cannot open the database {}: {}", config.database.string(),
-                  ingestor.error().message);
-    return false;
+  log_started(*schema_version);
+  if (reload_waiting_) {
+    reload_waiting_ = false;
+    reload();
   }
-  sources_.clear();
-  ingestor_ = std::move(*ingestor);
-  for (const auto& spec : ingestor_->config().sources) {
-    if (spec.type == SourceSpec::Type::directory) {
-      sources_.push_back(std::make_unique<Source>(
-          Source{DropFolder(spec, *ingestor_), "folder " + spec.path.string(), {}}));
-    } else if (spec.type == SourceSpec::Type::tail) {
-      sources_.push_back(std::make_unique<Source>(
-          Source{TailedFile(spec, *ingestor_), "tail " + spec.path.string(), {}}));
-    }
-  }
-  // ---- tcp sources: listeners on this io_context; see tcp_listener.hpp ----
-  tcp_.reset();
-  auto tcp = TcpSources::open(
-      io_, *ingestor_, {[this] { commit_if_due(); }, [this](const Error& e) { recover(e); }});
+}
+
+void Service::log_started(int schema_version) {
+  std::string site_ids;
+  for (const auto& site : config_->sites) site_ids += (site_ids.empty() ? "" : ", ") + site.id;
+  std::size_t files = 0;
+  for (const auto& source : config_->sources) files += source.type != SourceSpec::Type::tcp;
+  spdlog::info(
+      "stagewelld {} started: {} site(s) ({}), {} file source(s), {} tcp source(s), database {} "
+      "(schema version {}), {} units",
+      STAGEWELL_VERSION, config_->sites.size(), site_ids, files, tcp_->size(),
+      config_->database.string(), schema_version, units::name(config_->units));
+}
+
+bool Service::open_network() {
+  close_network();
+  auto tcp = TcpSources::open(io_, *config_, *writer_);
   if (!tcp) {
     spdlog::error("{}", tcp.error().message);
     return false;
   }
   tcp_ = std::move(*tcp);
-  // ---- end of tcp sources ----
-  if (!open_http()) return false;  // http
-  const auto& loaded = ingestor_->config();
-  std::string site_ids;
-  for (const auto& site : loaded.sites) site_ids += (site_ids.empty() ? "" : ", ") + site.id;
-  spdlog::info(
-      "stagewelld {} started: {} site(s) ({}), {} source(s), database {} (schema version {}), "
-      "{} units",
-      STAGEWELL_VERSION, loaded.sites.size(), site_ids, sources_.size(), loaded.database.string(),
-      ingestor_->store().schema_version(), units::name(loaded.units));
-  for (const auto& source : sources_) spdlog::info("source: {}", source->label);
-  if (sources_.empty() && tcp_->size() == 0) {  // tcp sources too
-    spdlog::warn("no sources configured: nothing will be read");
+  if (config_->http) {
+    // The readers open their read-only connections on their own threads, at the first request.
+    auto readers = std::make_unique<HttpReaders>(io_, *config_, writer_->live());
+    auto server = HttpServer::open(io_, *config_->http, std::move(readers));
+    if (!server) {
+      spdlog::error("{}", server.error().message);
+      return false;
+    }
+    http_ = std::move(*server);
   }
   return true;
 }
 
-void Service::schedule_poll(bool more_waiting) {
-  if (stopping_) return;
-  if (more_waiting) {
-    if (poll_posted_) return;
-    poll_posted_ = true;
-    boost::asio::post(io_, [this] {
-      poll_posted_ = false;
-      poll();
-    });
-    return;
-  }
-  poll_timer_.expires_after(kIdlePoll);
-  poll_timer_.async_wait([this](const boost::system::error_code& error) {
-    if (!error) poll();  // operation_aborted: cancelled at shutdown or reload
-  });
-}
-
-void Service::poll() {
-  if (stopping_ || !ingestor_) return;
-  bool more = false;
-  for (auto& source : sources_) {
-    auto polled = source->poll(kBytesPerPoll);
-    if (!polled) {
-      if (polled.error().kind == ErrorKind::database) {
-        recover(polled.error());
-        return;
-      }
-      // A source's own trouble (a permission, a vanished file): log and go on with the others.
-      // The same trouble is logged once, not five times a second.
-      if (polled.error().message != source->trouble) {
-        spdlog::warn("{}: {}", source->label, polled.error().message);
-        source->trouble = polled.error().message;
-      }
-      continue;
-    }
-    if (!source->trouble.empty()) {
-      spdlog::info("{}: working again", source->label);
-      source->trouble.clear();
-    }
-    more = more || *polled;
-  }
-  // Commit when the batch is full or old, and also as soon as the sources have nothing more
-  // waiting: a live reading is then visible at once, while a large file is still read in full
-  // batches.
-  if (ingestor_->commit_due() || !more) {
-    if (auto committed = ingestor_->commit(); !committed) {
-      recover(committed.error());
-      return;
-    }
-  }
-  const auto now = ingestor_->now_ms();
-  if (now - last_report_ms_ >= kReportEveryMs && ingestor_->counts().commits != reported_.commits) {
-    spdlog::info("totals: {}", summary(ingestor_->counts()));
-    reported_ = ingestor_->counts();
-    last_report_ms_ = now;
-  }
-  logging_.reopen_if_rotated();
-  schedule_poll(more);
-}
-
-void Service::recover(const Error& error) {
-  // Nothing of the failed batch is stored and no progress past it: re-read from stored progress.
-  spdlog::error("store: {}; the batch is dropped and its input will be read again", error.message);
-  if (auto reset = ingestor_->reset(); !reset) {
-    spdlog::error("store: {}", reset.error().message);
-  }
-  for (auto& source : sources_) source->reset();
-  poll_timer_.expires_after(kRecoveryPause);
-  poll_timer_.async_wait([this](const boost::system::error_code& error) {
-    if (!error) poll();
-  });
-}
-
-// tcp sources: commit as soon as the batch is due rather than at the next poll (up to
-// kIdlePoll later), so that clients are acknowledged within the batch age.
-void Service::commit_if_due() {
-  if (stopping_ || !ingestor_ || !ingestor_->commit_due()) return;
-  if (auto committed = ingestor_->commit(); !committed) recover(committed.error());
-}
-
-void Service::schedule_alarm_tick() {
-  if (stopping_) return;
-  alarm_timer_.expires_after(kAlarmTick);
-  alarm_timer_.async_wait([this](const boost::system::error_code& error) {
-    if (error || stopping_) return;  // operation_aborted: cancelled at shutdown
-    if (ingestor_) {
-      auto ticked = ingestor_->tick_alarms();
-      if (ticked && ingestor_->batch_open()) ticked = ingestor_->commit();
-      if (!ticked) recover(ticked.error());
-    }
-    schedule_alarm_tick();
-  });
-}
-
-// ---- http: the status page, API and metrics (http_server.hpp) ----
-bool Service::open_http() {
-  stop_http();
-  const Config& config = ingestor_->config();
-  if (!config.http) return true;
-  // The read-only reader opens after the Ingestor, which has brought the schema up to date.
-  auto api = StatusApi::open(config, [this] {
-    LiveFigures live;
-    live.counts = carried_;
-    if (ingestor_) live.counts.add(ingestor_->counts());
-    live.started_ms = started_ms_;
-    return live;
-  });
-  if (!api) {
-    spdlog::error("http: cannot open the database for reading: {}", api.error().message);
-    return false;
-  }
-  auto server = HttpServer::open(io_, *config.http, std::move(*api));
-  if (!server) {
-    spdlog::error("{}", server.error().message);
-    return false;
-  }
-  http_ = std::move(*server);
-  return true;
-}
-
-void Service::stop_http() {
+void Service::close_network() {
+  if (tcp_) tcp_->stop();  // accept no more; the writer tells each connection why it closes
   if (http_) http_->stop();
   http_.reset();
 }
-// ---- end of http ----
+
+void Service::schedule_log_check() {
+  log_timer_.expires_after(kLogCheck);
+  log_timer_.async_wait([this](const boost::system::error_code& error) {
+    if (error) return;  // cancelled at the end
+    logging_.reopen_if_rotated();
+    schedule_log_check();
+  });
+}
+
+// ---- signals -----------------------------------------------------------------------------------
 
 void Service::wait_for_signal() {
   signals_.async_wait([this](const boost::system::error_code& error, int signal_number) {
-    if (error) return;  // cancelled at shutdown
+    if (error) return;  // cancelled at the end
     on_signal(signal_number);
   });
 }
@@ -314,27 +172,44 @@ void Service::on_signal(int signal_number) {
   signals_.remove(SIGINT, ignored);
   signals_.remove(SIGTERM, ignored);
   shut_down();
+  wait_for_signal();  // SIGHUP is still caught (and ignored) while the writer finishes
 }
 
 void Service::shut_down() {
+  if (stopping_) return;
   stopping_ = true;
-  poll_timer_.cancel();
-  alarm_timer_.cancel();
-  if (tcp_) tcp_->stop();  // tcp sources: read no more; close once acknowledged
-  stop_http();             // http
-  if (ingestor_) {
-    if (auto committed = ingestor_->commit(); !committed) {
-      spdlog::error("final commit failed: {}; that input will be read again at the next start",
-                    committed.error().message);
-      exit_code_ = 1;
-    }
-    spdlog::info("stopped; {}", summary(ingestor_->counts()));
-  }
-  boost::system::error_code ignored;
-  signals_.cancel(ignored);  // nothing is left waiting: io_context::run() returns
+  close_network();
+  // A writer waiting for another process's lock gives up after a short while: the stop must not
+  // hang on something outside the service.
+  stop_timer_.expires_after(kStopLockWait);
+  stop_timer_.async_wait([this](const boost::system::error_code& error) {
+    if (!error) writer_->cancel_waits();
+  });
+  writer_->stop([this](int status) { stopped(status); });
 }
 
+void Service::stopped(int writer_status) {
+  if (writer_status != 0) exit_code_ = writer_status;
+  stop_timer_.cancel();
+  // The writer's last words (acknowledgements, `closing`) are on their way to the clients; the
+  // connections still open close as soon as those are sent.
+  if (tcp_) tcp_->close_when_said();
+  boost::system::error_code ignored;
+  signals_.cancel(ignored);
+  log_timer_.cancel();
+  busy_.reset();  // run() returns once the connections have closed
+}
+
+// ---- reloading ---------------------------------------------------------------------------------
+
 void Service::reload() {
+  if (stopping_) return;
+  if (reloading_ || !config_) {
+    // Applied once the database is open (or the reload in progress has ended).
+    spdlog::info("SIGHUP: the configuration is read again once the database is open");
+    reload_waiting_ = true;
+    return;
+  }
   logging_.reopen();
   spdlog::info("SIGHUP: reloading {}", config_path_);
   auto config = load_config(config_path_);
@@ -344,107 +219,55 @@ void Service::reload() {
                   config.error().size());
     return;
   }
-  if (auto committed = ingestor_->commit(); !committed) {
-    spdlog::error("commit before reload failed: {}", committed.error().message);
+  ensure_directories(*config);
+  auto new_lock = std::make_shared<std::optional<ServiceLock>>();
+  if (ServiceLock::path_for(config->database) != lock_->path()) {
+    auto lock = ServiceLock::acquire(config->database);
+    if (!lock) {
+      spdlog::error("{}; keeping the running configuration", lock.error().message);
+      return;
+    }
+    new_lock->emplace(std::move(*lock));
   }
-  const auto totals = ingestor_->counts();
-  const Config previous = ingestor_->config();
-  recomputations_.clear();  // planned again for the new configuration (the work left is found)
-  auto old_ingestor = std::move(ingestor_);
-  auto old_sources = std::move(sources_);
-  sources_.clear();
-  old_sources.clear();
-  tcp_.reset();  // tcp sources: closes their connections before the Ingestor goes
-  stop_http();   // http: frees the port and the read-only connection
-  carried_.add(totals);
-  old_ingestor.reset();  // closes the database before it is opened again
+  reloading_ = true;
+  const LogSpec previous_log = config_->log;
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
-  if (!open(*config)) {
-    // The new configuration's database cannot be opened: go back to the running configuration.
-    spdlog::error("reload failed; going on with the configuration that was running");
-    if (auto problem = logging_.apply(previous.log)) spdlog::warn("{}", *problem);
-    if (!open(previous)) {
+  close_network();
+  writer_->reload(
+      *config, [this, config = *config, new_lock, previous_log](const Writer::Reloaded& outcome) {
+        reloaded(config, new_lock, previous_log, outcome);
+      });
+}
+
+void Service::reloaded(Config config, std::shared_ptr<std::optional<ServiceLock>> new_lock,
+                       LogSpec previous_log, const Writer::Reloaded& outcome) {
+  reloading_ = false;
+  if (outcome.applied) {
+    config_ = std::move(config);
+    if (*new_lock) lock_ = std::move(**new_lock);
+  } else {
+    spdlog::error("reload failed: {}; going on with the configuration that was running",
+                  outcome.error);
+    if (auto problem = logging_.apply(previous_log)) spdlog::warn("{}", *problem);
+    if (!outcome.running) {
       spdlog::error("cannot reopen the running configuration either; stopping");
       exit_code_ = 1;
       shut_down();
       return;
     }
   }
-  spdlog::info("reloaded; totals before the reload: {}", summary(totals));
-  plan_recomputation();
-}
-
-// ---- Recomputing stored readings after a change of history or corrections ----
-
-namespace {
-
-// Readings per step: one transaction of this many takes some tens of milliseconds, so sources,
-// sockets and signals wait no longer than that between steps.
-constexpr std::int64_t kRecomputeStepReadings = 2000;
-
-}  // namespace
-
-void Service::plan_recomputation() {
-  recomputations_.clear();
-  if (!ingestor_) return;
-  if (auto committed = ingestor_->commit(); !committed) {
-    recover(committed.error());
+  if (stopping_) return;
+  if (!open_network()) {
+    exit_code_ = 1;
+    shut_down();
     return;
   }
-  for (const auto& site : ingestor_->config().sites) {
-    auto planned =
-        Recomputation::plan(ingestor_->store(), ingestor_->config(), site.id, ingestor_->now_ms());
-    if (!planned) {
-      spdlog::error("{}: cannot plan the recomputation of its history: {}", site.id,
-                    planned.error().message);
-      continue;
-    }
-    if ((*planned)->done()) continue;
-    const auto& totals = (*planned)->totals();
-    spdlog::info("{}: recomputing {} readings from {} to {} (history or corrections changed)",
-                 site.id, totals.readings_in_period, format_timestamp_utc(*totals.period_from_ms),
-                 format_timestamp_utc(*totals.period_to_ms));
-    recomputations_.push_back(std::move(*planned));
+  if (outcome.applied) log_started(outcome.schema_version);
+  spdlog::info("reloaded; totals before the reload: {}", outcome.totals);
+  if (reload_waiting_) {
+    reload_waiting_ = false;
+    reload();
   }
-  post_recompute_step();
-}
-
-void Service::post_recompute_step() {
-  if (recomputations_.empty() || recompute_posted_ || stopping_) return;
-  recompute_posted_ = true;
-  boost::asio::post(io_, [this] {
-    recompute_posted_ = false;
-    recompute_step();
-  });
-}
-
-void Service::recompute_step() {
-  if (stopping_ || !ingestor_ || recomputations_.empty()) return;
-  // The recomputation writes on the ingest's connection: the open batch goes first.
-  if (auto committed = ingestor_->commit(); !committed) {
-    recover(committed.error());
-    post_recompute_step();
-    return;
-  }
-  Recomputation& work = *recomputations_.front();
-  // The Ingestor notices the readings rewritten by itself (Store::stored_readings_changed).
-  auto stepped = work.step(ingestor_->store(), kRecomputeStepReadings);
-  if (!stepped) {
-    spdlog::error(
-        "{}: recomputation stopped: {}; what was committed stays, the rest is found "
-        "again at the next start or SIGHUP",
-        work.site_id(), stepped.error().message);
-    recomputations_.erase(recomputations_.begin());
-  } else if (work.done()) {
-    const auto& totals = work.totals();
-    spdlog::info(
-        "{}: recomputed {} readings ({} changed, max discharge change {:.6g}, {} days "
-        "refreshed, max daily volume change {:.6g}); see the `recomputations` view",
-        work.site_id(), totals.readings_recomputed, totals.readings_changed,
-        totals.max_discharge_change, totals.days_refreshed, totals.max_daily_volume_change);
-    recomputations_.erase(recomputations_.begin());
-  }
-  post_recompute_step();
 }
 
 }  // namespace stagewell::service

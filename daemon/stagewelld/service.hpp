@@ -1,28 +1,33 @@
-// The service: one Boost.Asio io_context runs every source, the batch commits and the signals.
+// The service: the network loop (one Boost.Asio io_context on the main thread), which runs the
+// signals, the tcp sources' sockets and the HTTP server, and hands everything that may wait to the
+// writer (writer.hpp: the database, the source files, commits, recomputation) and to the HTTP
+// readers (http_readers.hpp). The loop itself never waits on SQLite, a lock or a large read.
 //
 // Signals set state; the work happens in the loop. SIGTERM or SIGINT: stop taking input, commit
 // what is in hand, return (exit 0); a second one ends the process at once (the default action is
-// restored after the first). SIGHUP: reopen the log file and reload the configuration, validated
-// first; an invalid one is logged and the running one kept. Every few seconds a clock tick lets
-// the alarms notice a sensor that has gone quiet.
+// restored after the first). A stop waits at most about a second for a lock another process holds
+// on the database: what was not committed then is read again at the next start. SIGHUP: reopen
+// the log file and reload the configuration, validated first; an invalid one is logged and the
+// running one kept.
 #pragma once
 
+// clang-format off
+#include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
+// clang-format on
+#include <boost/asio/executor_work_guard.hpp>
 #include <boost/asio/io_context.hpp>
 #include <boost/asio/signal_set.hpp>
 #include <boost/asio/steady_timer.hpp>
 #include <memory>
 #include <optional>
 #include <string>
-#include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
-#include <vector>
 
-#include "http_server.hpp"  // http
+#include "http_server.hpp"
 #include "logging.hpp"
-#include "stagewell/file_sources.hpp"
-#include "stagewell/ingestor.hpp"
-#include "stagewell/recomputation.hpp"
+#include "stagewell/config.hpp"
 #include "stagewell/service_lock.hpp"
-#include "tcp_listener.hpp"  // tcp sources
+#include "tcp_listener.hpp"
+#include "writer.hpp"
 
 namespace stagewell::service {
 
@@ -31,54 +36,44 @@ class Service {
   Service(boost::asio::io_context& io, std::string config_path, Logging& logging);
   ~Service();
 
-  // Loads the configuration and starts everything. Returns false (after logging why) when the
-  // configuration or the database cannot be used.
+  // Loads the configuration, takes the database's lock and starts the writer, which opens the
+  // database; the network side opens once it has. Returns false (after logging why) when the
+  // configuration or the lock cannot be had; a database that cannot be opened ends the loop later
+  // with exit_code() 1.
   bool start();
   int exit_code() const { return exit_code_; }
 
  private:
-  struct Source;
-  bool open(const Config& config);
-  void schedule_poll(bool more_waiting);
-  void poll();
-  void recover(const Error& error);
+  void opened(const Config& config, Result<int> schema_version);
+  void log_started(int schema_version);
+  bool open_network();  // tcp listeners and the HTTP server of config_
+  void close_network();
   void wait_for_signal();
   void on_signal(int signal_number);
   void reload();
+  void reloaded(Config config, std::shared_ptr<std::optional<ServiceLock>> new_lock,
+                LogSpec previous_log, const Writer::Reloaded& outcome);
   void shut_down();
-  void commit_if_due();        // tcp sources: acknowledge within the batch age
-  void schedule_alarm_tick();  // alarms judged by the clock (a sensor gone quiet)
-  // Recomputation (recomputation.hpp): after a configuration is loaded, the readings its history or
-  // corrections compute differently are recomputed in steps posted between other work.
-  void plan_recomputation();
-  void post_recompute_step();
-  void recompute_step();
-  bool open_http();  // http
-  void stop_http();  // http
+  void stopped(int writer_status);
+  void schedule_log_check();
 
   boost::asio::io_context& io_;
   std::string config_path_;
   Logging& logging_;
   boost::asio::signal_set signals_;
-  boost::asio::steady_timer poll_timer_;
-  boost::asio::steady_timer alarm_timer_;
+  boost::asio::steady_timer log_timer_;   // notices a rotated log file
+  boost::asio::steady_timer stop_timer_;  // the stop's deadline for waiting on a lock
+  // Keeps run() going while the writer works and the network side has nothing pending.
+  std::optional<boost::asio::executor_work_guard<boost::asio::io_context::executor_type>> busy_;
   std::optional<ServiceLock> lock_;  // one service per database (service_lock.hpp)
-  std::unique_ptr<Ingestor> ingestor_;
-  std::vector<std::unique_ptr<Source>> sources_;
-  std::unique_ptr<TcpSources> tcp_;  // tcp sources; declared after ingestor_: goes first
-  std::vector<std::unique_ptr<Recomputation>> recomputations_;  // sites left to recompute
-  bool recompute_posted_ = false;
-
-  // http: the status page, API and metrics; the counts of Ingestors before a reload and
-  // the start time, for the metrics.
+  std::optional<Config> config_;     // the running configuration, once the writer has opened it
+  std::unique_ptr<Writer> writer_;
+  std::unique_ptr<TcpSources> tcp_;
   std::shared_ptr<HttpServer> http_;
-  IngestCounts carried_;
-  std::int64_t started_ms_ = 0;
+  bool reloading_ = false;
+  bool reload_waiting_ = false;  // a SIGHUP came while opening or reloading: reload after it
   bool stopping_ = false;
-  bool poll_posted_ = false;
   int exit_code_ = 0;
-  std::int64_t last_report_ms_ = 0;
-  IngestCounts reported_;
 };
 
 }  // namespace stagewell::service

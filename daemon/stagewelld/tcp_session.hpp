@@ -1,13 +1,14 @@
-// One client connection of a tcp source: the socket, its buffers and its timers around a
-// TcpIntake (the protocol, in lib: stagewell/tcp_intake.hpp).
+// One client connection of a tcp source, on the network loop: the socket, its buffers and its
+// timers. Its lines are read by the protocol on the writer's thread (tcp_connections.hpp): the
+// session hands over one chunk at a time and reads the next once the writer has taken it, so a
+// client can never queue more than one chunk at the writer, whatever the writer is waiting for.
 //
-// Memory per connection is bounded: one read buffer (kReadBufferBytes), one unfinished line
-// (max_line_bytes) and the replies not yet taken by the client (max_reply_bytes; reading stops at
-// half of it, and the connection is closed beyond it). Reading also stops while the listener
-// holds all connections back (a commit is due, or the store failed), so that a lagging store
-// pushes back on the clients through TCP instead of growing the batch.
+// Memory per connection is bounded: one read buffer (kReadBufferBytes) and the replies not yet
+// taken by the client (max_reply_bytes; reading stops at half of it, and the connection is closed
+// beyond it).
 //
-// A connection is closed after `idle_timeout` with nothing moving either way, and after
+// A connection is closed after `idle_timeout` with nothing moving either way — time while its
+// lines wait at the writer (for a commit, or for the database's lock) does not count — and after
 // `auth_timeout` without its `auth` line when the source has a secret. Closing sends the reason
 // (if any), then a FIN, and discards what the client still sends for a short while, so that the
 // client reads the reason instead of a reset.
@@ -27,36 +28,33 @@
 #include <optional>
 #include <string>
 
-#include "stagewell/tcp_intake.hpp"
+#include "stagewell/config.hpp"
+#include "tcp_link.hpp"
 
 namespace stagewell::service {
 
 class TcpListener;
+class Writer;
 
 class TcpSession : public std::enable_shared_from_this<TcpSession> {
  public:
   static constexpr std::size_t kReadBufferBytes = 16 * 1024;
 
-  TcpSession(boost::asio::ip::tcp::socket socket, std::string peer, const TcpSpec& limits,
-             std::shared_ptr<TcpListener> listener, TcpIntake intake);
+  TcpSession(boost::asio::ip::tcp::socket socket, std::uint64_t id, std::string peer,
+             const TcpSpec& limits, std::shared_ptr<TcpListener> listener, Writer& writer);
 
-  void start();
-
-  // After every commit attempt (Ingestor::add_commit_observer).
-  void on_commit(bool committed);
-  // The listener lets connections read again.
-  void resume();
-  // The service stops: read nothing more; close once every line fed is acknowledged.
-  void stop();
-  // The Ingestor is going away: close now, whatever is unacknowledged (the client resends it).
-  void detach(std::string_view reason);
+  // Registers with the writer (`link` without its deliver, which this adds) and starts reading.
+  void start(TcpLink link);
+  // The service ends and the writer has said its last word: close once it is sent, giving the
+  // client only a short while to read it.
+  void hurry_close();
 
   const std::string& peer() const { return peer_; }
 
  private:
   using Clock = std::chrono::steady_clock;
 
-  void process();
+  void on_report(TcpReport report);
   void read();
   void on_read(const boost::system::error_code& error, std::size_t bytes);
   void flush();
@@ -67,27 +65,27 @@ class TcpSession : public std::enable_shared_from_this<TcpSession> {
   void arm_timer();
   void on_timer();
   std::size_t unsent_bytes() const { return pending_.size() + sending_.size(); }
-  void close_if_done();
+  bool held_by_writer() const { return chunk_at_writer_ || awaiting_commit_; }
 
   boost::asio::ip::tcp::socket socket_;
   boost::asio::steady_timer timer_;
+  std::uint64_t id_;
   std::string peer_;
   std::size_t max_reply_bytes_;
   Clock::duration idle_timeout_;
   std::optional<Clock::duration> auth_timeout_;  // only when the source has a secret
   std::shared_ptr<TcpListener> listener_;
-  TcpIntake intake_;
+  Writer& writer_;
   std::array<char, kReadBufferBytes> buffer_{};
-  std::size_t begin_ = 0;  // bytes of buffer_ [begin_, end_) are read but not yet fed
-  std::size_t end_ = 0;
-  std::string pending_;  // replies waiting for the write in progress
-  std::string sending_;  // replies being written
+  std::string pending_;      // replies waiting for the write in progress
+  std::string sending_;      // replies being written
+  std::int64_t chunks_ = 0;  // chunks handed to the writer
   bool reading_ = false;
   bool writing_ = false;
-  bool input_done_ = false;  // the client sent its last byte (EOF)
-  bool finished_ = false;    // ... and the intake has processed its last line
-  bool waiting_ = false;     // held back by the listener until resume()
-  bool stopping_ = false;    // the service stops: feed nothing more
+  bool chunk_at_writer_ = false;  // a chunk (or the end of input) waits to be taken
+  bool awaiting_commit_ = false;  // the writer holds lines of ours until its next commit
+  bool authenticated_ = false;
+  bool input_done_ = false;  // the client sent its last byte (EOF), and the writer was told
   bool closing_ = false;     // a last line is queued; then FIN, drain, close
   bool draining_ = false;    // FIN sent; discarding input until EOF or the deadline
   bool closed_ = false;

@@ -20,7 +20,7 @@ import daemon_support as ds
 R = ds.Results()
 T0 = 1714521600_000  # 2024-05-01T00:00:00Z, ms
 MIN = 60_000
-BIG_LINES = 300_000
+BIG_LINES = 1_000_000  # large enough that the SIGTERM below lands before the file ends
 
 
 def config(roughness, extra_site=False, error=False, change=None):

@@ -276,5 +276,16 @@ def manning(shape, n, slope, depth):
     return discharge, froude
 
 
+def worst_discharge_error(db_path, shape, n, slope):
+    """The largest relative difference between a stored discharge (the `discharge` view) and
+    Manning's equation above at the reading's stage, taken as the depth (no offset, zero flow at
+    stage 0). 0.0 when nothing is stored."""
+    worst = 0.0
+    for stage, discharge in query(db_path, "SELECT stage, discharge FROM discharge"):
+        want = manning(shape, n, slope, stage)[0]
+        worst = max(worst, abs(discharge - want) / want)
+    return worst
+
+
 def exit_with(results):
     sys.exit(results.finish())
