@@ -6,6 +6,7 @@
 
 #include <system_error>
 
+#include "store/day_readings_scan.hpp"
 #include "store/migrations.hpp"
 #include "store/store_core.hpp"
 
@@ -22,6 +23,9 @@ Result<std::unique_ptr<Connection>> connect(const std::filesystem::path& path,
   if (!connection) return connection;
   // Every statement waits for a lock another connection holds as the options say.
   (*connection)->set_lock_wait(options.lock_wait);
+  if (auto added = store_detail::add_day_readings_function(**connection); !added) {
+    return std::unexpected(added.error());
+  }
   return connection;
 }
 
