@@ -22,24 +22,31 @@ using test::TempDir;
 
 constexpr std::int64_t kMinute = 60'000;
 
-// 10,000 one-minute readings of `site` (more than one stretch), some without discharge and some
-// flagged, and a few of `other` in between.
-void store_readings(Store& store, const test::Site& site, const test::Site& other) {
-  auto batch = store.begin();
-  REQUIRE(batch.has_value());
-  for (std::int64_t i = 0; i < 10'000; ++i) {
-    StoredReading r = test::reading(site, 1'000'000 + i * kMinute, 0.5 + 1e-4 * i);
-    if (i % 97 == 0) {
-      r.discharge.reset();
-      r.flags = Flag::out_of_range;
-    } else if (i % 31 == 0) {
-      r.flags = Flags(Flag::spike) |= Flag::unsteady;
+// A database with 10,000 one-minute readings of `site` (more than one stretch), some without
+// discharge and some flagged, and a few of `other` in between.
+struct Readings {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  test::Site site = test::add_site(store, "raceway-a");
+  test::Site other = test::add_site(store, "feeder-canal");
+
+  Readings() {
+    auto batch = store.begin();
+    REQUIRE(batch.has_value());
+    for (std::int64_t i = 0; i < 10'000; ++i) {
+      StoredReading r = test::reading(site, 1'000'000 + i * kMinute, 0.5 + 1e-4 * i);
+      if (i % 97 == 0) {
+        r.discharge.reset();
+        r.flags = Flag::out_of_range;
+      } else if (i % 31 == 0) {
+        r.flags = Flags(Flag::spike) |= Flag::unsteady;
+      }
+      REQUIRE(batch->insert(r).has_value());
+      if (i % 1000 == 0) REQUIRE(batch->insert(test::reading(other, r.time_ms, 9.0)).has_value());
     }
-    REQUIRE(batch->insert(r).has_value());
-    if (i % 1000 == 0) REQUIRE(batch->insert(test::reading(other, r.time_ms, 9.0)).has_value());
+    REQUIRE(batch->commit().has_value());
   }
-  REQUIRE(batch->commit().has_value());
-}
+};
 
 struct Scanned {
   std::vector<DayReading> readings;
@@ -68,11 +75,8 @@ void check_same(const std::vector<DayReading>& got, const std::vector<DayReading
 }
 
 TEST_CASE("a scan hands over what day_readings returns, a bounded stretch at a time") {
-  TempDir dir;
-  Store store = test::open_store(dir.db());
-  const auto site = test::add_site(store, "raceway-a");
-  const auto other = test::add_site(store, "feeder-canal");
-  store_readings(store, site, other);
+  Readings db;
+  auto& [dir, store, site, other] = db;
 
   constexpr auto kMin = std::numeric_limits<std::int64_t>::min();
   constexpr auto kMax = std::numeric_limits<std::int64_t>::max();
@@ -106,11 +110,8 @@ TEST_CASE("a scan hands over what day_readings returns, a bounded stretch at a t
 }
 
 TEST_CASE("what the caller's code throws reaches the caller, and the store reads on") {
-  TempDir dir;
-  Store store = test::open_store(dir.db());
-  const auto site = test::add_site(store, "raceway-a");
-  const auto other = test::add_site(store, "feeder-canal");
-  store_readings(store, site, other);
+  Readings db;
+  auto& [dir, store, site, other] = db;
 
   int calls = 0;
   CHECK_THROWS_AS((void)store.readings().scan_day_readings(site.key, 0,
@@ -131,15 +132,9 @@ TEST_CASE("what the caller's code throws reaches the caller, and the store reads
 }
 
 TEST_CASE("the aggregate gives SQL typed elsewhere an error, never memory") {
-  TempDir dir;
-  {
-    Store store = test::open_store(dir.db());
-    const auto site = test::add_site(store, "raceway-a");
-    const auto other = test::add_site(store, "feeder-canal");
-    store_readings(store, site, other);
-  }
+  Readings db;
   // An analyst's connection does not have it.
-  auto analyst = test::raw_connection(dir.db());
+  auto analyst = test::raw_connection(db.dir.db());
   CHECK_FALSE(analyst
                   ->query_int64("SELECT stagewell_day_readings(time_ms, discharge, flags, 1) "
                                 "FROM readings")
