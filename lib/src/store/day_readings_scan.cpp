@@ -14,6 +14,7 @@
 
 #include <exception>
 #include <functional>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -34,7 +35,8 @@ constexpr std::size_t kStretch = 4096;
 struct Scan {
   std::vector<daily::DayReading> stretch;
   const std::function<void(std::span<const daily::DayReading>)>* take = nullptr;
-  std::exception_ptr failure;  // thrown by `take`: rethrown once SQLite has returned
+  std::exception_ptr failure;           // thrown by `take`: rethrown once SQLite has returned
+  std::optional<std::int64_t> last_ms;  // the time of the last reading taken
 
   void hand_over() {
     (*take)(stretch);
@@ -63,9 +65,10 @@ void take_row(sqlite3_context* context, int /*arguments: 4*/, sqlite3_value** va
   reading.flags = Flags(static_cast<std::uint32_t>(sqlite3_value_int64(values[2])));
   // SQLite walks a range of the primary key in key order, which is time order; SQL promises an
   // aggregate no order, though, so the order is checked rather than assumed.
-  if (!scan.stretch.empty() && reading.time_ms <= scan.stretch.back().time_ms) {
+  if (scan.last_ms && reading.time_ms <= *scan.last_ms) {
     return sqlite3_result_error(context, "stagewell_day_readings: rows out of time order", -1);
   }
+  scan.last_ms = reading.time_ms;
   try {  // no exception may cross SQLite's C frames
     scan.stretch.push_back(reading);
     if (scan.stretch.size() == kStretch) scan.hand_over();
