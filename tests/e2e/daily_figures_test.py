@@ -11,6 +11,9 @@ IANA zone and the default flag treatment, and US units with a fixed offset (-07:
 all year) and spikes excluded instead of bridged. Since the late readings are ingested after the
 days they belong to were stored, agreement with the reference (computed from the final stored
 readings) also shows that the figures kept current batch by batch equal a full recomputation.
+The same readings reported with another time zone and max_gap than the stored figures were
+computed with (the report then computes them from the readings as it runs) agree with the
+reference in that zone too.
 """
 import os
 import tempfile
@@ -152,6 +155,25 @@ def run_setup(program, root, name, args, excluded, bridged):
     csv = ds.run(program, "daily", "-c", config, "-s", "canal", "--from", first, "--to", last,
                  "--csv").splitlines()
     R.check(f"{name}: CSV has a row per day", len(csv) == 1 + len(want), f"{len(csv)} lines")
+
+    # Stale figures: another time zone and max_gap than those the figures were stored with, so
+    # `daily` computes them from the readings now (stored: false), and they must agree with the
+    # reference in that zone and with that max_gap just as well.
+    stale_zone = "America/Chicago" if args["zone"] == "America/Denver" else "America/Denver"
+    stale_config = os.path.join(root, "stale.yaml")
+    with open(stale_config, "w") as f:
+        f.write(CONFIG.format(**{**args, "zone": stale_zone}).replace("max_gap: 20m",
+                                                                     "max_gap: 45m"))
+    stale_want = ds.reference_days(stored, ds.zone_of(stale_zone), 45 * MIN, excluded, bridged)
+    R.check(f"{name}: the stale zone moves the days' bounds", stale_want.keys() != want.keys()
+            or any(stale_want[d]["readings"] != want[d]["readings"] for d in want))
+    out = ds.run_json(program, "daily", "-c", stale_config, "-s", "canal", "--from",
+                      min(stale_want), "--to", max(stale_want), "--json")
+    R.check(f"{name}: stale figures are computed now", out["stored"] is False)
+    ds.compare_days(R, f"{name}: stale daily --json", out["days"], stale_want)
+    for day in out["days"]:
+        R.check(f"{name}: stale --json flags {day['day']}",
+                day["flags"] == stale_want[day["day"]]["flags"])
 
 
 def main():

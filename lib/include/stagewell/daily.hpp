@@ -78,6 +78,35 @@ DayFigures compute_day(std::span<const DayReading> readings, Day day, const DayC
 std::vector<DayFigures> compute_days(std::span<const DayReading> readings,
                                      const DayCalendar& calendar, const DayRules& rules);
 
+// Days `first` to `last` computed from readings that arrive a stretch at a time, in time order (as
+// ReadingsTable::scan_day_readings hands them over): the figures compute_day() gives, each day
+// computed as soon as the readings reach more than max_gap past its end, and only the readings
+// the days still to come can need are kept (a day and max_gap either side, and one stretch).
+// Not thread-safe.
+class DaySweep {
+ public:
+  DaySweep(DayCalendar calendar, const DayRules& rules, Day first, Day last);
+
+  // REQUIRES: times strictly increase, from one call to the next too; all the calls together give
+  // every reading of the site within max_gap of the days (more is harmless).
+  void add(std::span<const DayReading> readings);
+  // Computes the days not yet computed (no more readings are coming) and returns every day that
+  // has figures, in day order. The sweep is spent.
+  std::vector<DayFigures> finish();
+
+ private:
+  void compute_next_day();
+
+  DayCalendar calendar_;
+  DayRules rules_;
+  Day next_;  // the next day to compute
+  Day last_;
+  std::int64_t next_end_ms_ = 0;  // where next_ ends
+  std::vector<DayReading> readings_;
+  std::size_t first_kept_ = 0;  // readings_ before it are needed by no day still to come
+  std::vector<DayFigures> days_;
+};
+
 // ---- Stored figures (the store's DailyTable keeps them) ----
 
 // The settings figures are computed with, as stored in daily_settings: any change to them means

@@ -63,16 +63,16 @@ Result<void> recompute_site(Store& store, WriteBatch& batch, SiteKey site,
 Result<std::vector<DayFigures>> compute_range(Store& store, SiteKey site,
                                               const DayCalendar& calendar, const DayRules& rules,
                                               Day from, Day to) {
-  std::vector<DayFigures> days;
-  if (to < from) return days;
-  auto readings = store.readings().day_readings(site, calendar.start_ms(from) - rules.max_gap_ms,
-                                                calendar.start_ms(to + 1) + rules.max_gap_ms);
-  if (!readings) return std::unexpected(readings.error());
-  for (Day day = from; day <= to; ++day) {
-    DayFigures figures = compute_day(*readings, day, calendar, rules);
-    if (!figures.empty()) days.push_back(std::move(figures));
-  }
-  return days;
+  if (to < from) return std::vector<DayFigures>{};
+  // One statement, so one snapshot of the readings even while the service writes; the readings
+  // held at a time are a stretch and the days being computed, however long the period.
+  DaySweep sweep(calendar, rules, from, to);
+  auto read = store.readings().scan_day_readings(
+      site, calendar.start_ms(from) - rules.max_gap_ms,
+      calendar.start_ms(to + 1) + rules.max_gap_ms,
+      [&](std::span<const DayReading> readings) { sweep.add(readings); });
+  if (!read) return std::unexpected(read.error());
+  return sweep.finish();
 }
 
 }  // namespace stagewell::daily

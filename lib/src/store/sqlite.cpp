@@ -86,6 +86,11 @@ void Statement::bind_null(int index) {
   if (bind_error_ == SQLITE_OK) bind_error_ = rc;
 }
 
+void Statement::bind_pointer(int index, void* pointer, const char* type) {
+  const int rc = sqlite3_bind_pointer(statement_, index, pointer, type, nullptr);
+  if (bind_error_ == SQLITE_OK) bind_error_ = rc;
+}
+
 int Statement::step_code() {
   if (bind_error_ != SQLITE_OK) return bind_error_;
   int rc = SQLITE_OK;

@@ -55,6 +55,10 @@ class Statement {
   void bind(int index, std::string_view text);        // copied by SQLite (SQLITE_TRANSIENT)
   void bind(int index, std::optional<double> value);  // NULL when empty
   void bind_null(int index);
+  // A pointer for an application-defined function of this program (SQLite's pointer-passing
+  // interface: SQL sees NULL, and only sqlite3_value_pointer with the same `type` gets it back).
+  // REQUIRES: `type` is a string constant; `pointer` outlives the statement's next run.
+  void bind_pointer(int index, void* pointer, const char* type);
 
   // Runs one step: true when a row is ready, false when the statement is done.
   Result<bool> step();

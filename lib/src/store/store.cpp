@@ -6,6 +6,7 @@
 
 #include <system_error>
 
+#include "store/day_readings_scan.hpp"
 #include "store/migrations.hpp"
 #include "store/store_core.hpp"
 
@@ -22,6 +23,9 @@ Result<std::unique_ptr<Connection>> connect(const std::filesystem::path& path,
   if (!connection) return connection;
   // Every statement waits for a lock another connection holds as the options say.
   (*connection)->set_lock_wait(options.lock_wait);
+  if (auto added = store_detail::add_day_readings_function(**connection); !added) {
+    return std::unexpected(added.error());
+  }
   return connection;
 }
 
@@ -89,6 +93,13 @@ Result<Store> Store::open_read_only(const std::filesystem::path& path,
   }
   auto connection = connect(path, Connection::Access::read_only, options);
   if (!connection) return std::unexpected(connection.error());
+  // Readers scan long ranges (a report reads a year of readings when its figures are stale): with
+  // the file mapped (its first GiB), SQLite reads pages in place instead of copying each one out
+  // of the kernel. It maps only the database file and still reads what the WAL holds from the
+  // WAL, so what a writer beside it commits is seen as before.
+  if (auto done = (*connection)->exec("PRAGMA mmap_size = 1073741824"); !done) {
+    return std::unexpected(done.error());
+  }
   if (auto ok = store_detail::check_schema(**connection); !ok) return std::unexpected(ok.error());
   return Store(make_core(std::move(*connection), options));
 }
