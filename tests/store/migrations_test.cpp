@@ -3,8 +3,12 @@
 
 #include <regex>
 
+#include <cstring>
+#include <vector>
+
 #include "raw_connection.hpp"
 #include "stagewell/store.hpp"
+#include "store/migrations.hpp"
 #include "store_test_support.hpp"
 
 namespace stagewell {
@@ -159,6 +163,77 @@ TEST_CASE("read-only opening needs an existing database at the current version")
   REQUIRE_MESSAGE(reader.has_value(), reader.error().message);
   CHECK(reader->read_only());
   CHECK(reader->schema_version() == highest_migration_number());
+}
+
+
+// Migration 6 stops storing each reading's depth; the `discharge` view computes it from the
+// version's terms. Readings stored at schema 5 must come out of the view with the depth they had,
+// bit for bit. The versions' JSON text is in the form the program writes (site_json.cpp): unit
+// system, stage units, offset and zero flow, and a stage correction with a drift.
+TEST_CASE("migration 6 keeps every stored depth, bit for bit, computed from the version") {
+  TempDir dir;
+  struct Old {
+    std::int64_t time_ms;
+    double stage, depth;
+  };
+  std::vector<Old> old;
+  {
+    auto raw = raw_connection(dir.db());
+    for (const auto& migration : store_detail::migrations()) {
+      if (migration.version > 5) break;
+      REQUIRE(raw->exec(migration.sql).has_value());
+      REQUIRE(raw->exec("PRAGMA user_version = " + std::to_string(migration.version)).has_value());
+    }
+    REQUIRE(raw->exec("INSERT INTO sites (site_key, id) VALUES (1, 'raceway-a')").has_value());
+    // Version 1: US units, stage in inches with an offset and zero flow; version 2: the same
+    // with a drifting correction over the hour [0, 3,600,000) ms.
+    REQUIRE(raw->exec(R"(INSERT INTO config_versions (config_id, site_key, config_json, hash,
+        created_ms) VALUES
+        (1, 1, '{"units":"us","stage":{"units":"in","offset":1.3,"zero_flow":2.7}}', 'a', 0),
+        (2, 1, '{"correction":{"drift":0.37,"from_ms":0,"offset":-0.11,"to_ms":3600000},
+                 "units":"us","stage":{"units":"in","offset":1.3,"zero_flow":2.7}}', 'b', 0))")
+                .has_value());
+    auto insert = raw->prepare(
+        "INSERT INTO readings (site_key, time_ms, stage, depth, discharge, flags, config_id) "
+        "VALUES (1, ?1, ?2, ?3, 1.0, 0, ?4)");
+    REQUIRE(insert.has_value());
+    for (int i = 0; i < 200; ++i) {
+      const std::int64_t time_ms = 17'000 * i + 13;
+      const double stage = 0.1 * i + 1.0 / 3.0;
+      const bool corrected = i % 2 == 1;
+      // SiteHistory::depth: (stage + correction) + offset - zero_flow, in inches, to feet.
+      const double correction =
+          corrected ? -0.11 + 0.37 * (static_cast<double>(time_ms - 0) / 3'600'000.0) : 0.0;
+      const double depth = ((stage + correction) + 1.3 - 2.7) * 0.0254 / 0.3048;
+      insert->bind(1, time_ms);
+      insert->bind(2, stage);
+      insert->bind(3, depth);
+      insert->bind(4, static_cast<std::int64_t>(corrected ? 2 : 1));
+      REQUIRE(insert->run().has_value());
+      insert->reset();
+      old.push_back({time_ms, stage, depth});
+    }
+  }
+  Store store = test::open_store(dir.db());  // migrates
+  CHECK(store.schema_version() == highest_migration_number());
+  auto raw = raw_connection(dir.db());
+  CHECK_FALSE(raw->prepare("SELECT depth FROM readings").has_value());  // no longer stored
+  auto select = raw->prepare("SELECT stage, depth FROM discharge ORDER BY unix_time");
+  REQUIRE(select.has_value());
+  std::size_t i = 0;
+  for (; select->step().value_or(false); ++i) {
+    REQUIRE(i < old.size());
+    CAPTURE(i);
+    CHECK(select->column_double(0) == old[i].stage);
+    const double depth = select->column_double(1);
+    CHECK(std::memcmp(&depth, &old[i].depth, sizeof depth) == 0);
+  }
+  CHECK(i == old.size());
+  // The readings' own reads give the same depths.
+  std::vector<StoredReading> stored;
+  REQUIRE(store.readings().range(SiteKey{1}, 0, INT64_MAX, 1000, stored).has_value());
+  REQUIRE(stored.size() == old.size());
+  for (std::size_t k = 0; k < old.size(); ++k) CHECK(stored[k].depth == old[k].depth);
 }
 
 }  // namespace

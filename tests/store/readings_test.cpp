@@ -41,7 +41,7 @@ TEST_CASE("a reading is stored once; the same reading again is a no-op") {
   CHECK(store.readings().count() == 1);
   auto raw = raw_connection(dir.db());
   CHECK(query_int(*raw, "SELECT flags FROM readings") == 0);
-  CHECK(query_int(*raw, "SELECT depth < 1.0 FROM readings") == 1);  // not the second's 9.0
+  CHECK(query_int(*raw, "SELECT depth < 1.0 FROM discharge") == 1);  // not the second's 9.0
 }
 
 TEST_CASE("a different stage for a stored time is a conflict and replaces nothing") {

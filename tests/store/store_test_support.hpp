@@ -52,7 +52,9 @@ inline Site add_site(Store& store, std::string_view id) {
   auto key = store.sites().ensure(id);
   REQUIRE_MESSAGE(key.has_value(), key.error().message);
   const std::string json = "{\"id\":\"" + std::string(id) + "\"}";
-  auto config = store.versions().record(*key, json, 1'700'000'000'000);
+  // Depth = stage - 0.1, as reading() below says.
+  auto config =
+      store.versions().record(*key, json, 1'700'000'000'000, DepthTerms{.zero_flow = 0.1});
   REQUIRE_MESSAGE(config.has_value(), config.error().message);
   return Site{*key, *config};
 }

@@ -30,10 +30,13 @@ class SitesTable : store_detail::TableHandle {
 // `config_versions`: what computed each stored reading.
 class VersionsTable : store_detail::TableHandle {
  public:
-  // Records the site's configuration (JSON text), in a transaction of its own. The same text for
-  // the same site returns the same id; a new text returns a new one. `now_ms` becomes its created
-  // time when it is new. REQUIRES: read-write; no batch open.
-  Result<ConfigVersionId> record(SiteKey site, std::string_view json, std::int64_t now_ms);
+  // Records the site's configuration (JSON text) and how it turns stage into depth, in a
+  // transaction of its own. The same text for the same site returns the same id (and keeps its
+  // first terms); a new text returns a new one. `now_ms` becomes its created time when it is new.
+  // The default terms make depth the stage itself (metres, no offset). REQUIRES: read-write; no
+  // batch open.
+  Result<ConfigVersionId> record(SiteKey site, std::string_view json, std::int64_t now_ms,
+                                 const DepthTerms& depth = DepthTerms{});
   // The version's short name (config_versions.hash); nullopt for an unknown id.
   Result<std::optional<std::string>> hash(ConfigVersionId version);
 

@@ -42,12 +42,30 @@ struct ConfigVersionId {
   friend auto operator<=>(ConfigVersionId, ConfigVersionId) = default;
 };
 
+// What turns a reading's stage into its depth under one configuration version (the version's
+// row in `version_depth_terms`): depth = ((stage + correction) + stage_offset - zero_flow)
+// × stage_unit_m ÷ length_unit_m, correction = offset + drift × (time - from) ÷ (to - from) when
+// the version has a stage correction, else 0 — the same operations, in the same order, as
+// SiteHistory::depth. Depth is not stored with each reading: reads compute it from these.
+struct DepthTerms {
+  double stage_offset = 0.0;   // site's stage units
+  double zero_flow = 0.0;      // site's stage units
+  double stage_unit_m = 1.0;   // metres in one stage unit
+  double length_unit_m = 1.0;  // metres in one depth unit (m: 1, ft: 0.3048)
+  struct Correction {
+    std::int64_t from_ms = 0, to_ms = 0;
+    double offset = 0.0, drift = 0.0;  // site's stage units
+  };
+  std::optional<Correction> correction;
+};
+
 // One reading as stored.
 struct StoredReading {
   SiteKey site;
   std::int64_t time_ms = 0;         // ms since the Unix epoch, UTC
   double stage = 0.0;               // the raw reading, site's stage units, exactly as received
-  double depth = 0.0;               // configuration length unit (m or ft)
+  double depth = 0.0;               // configuration length unit (m or ft); read, never written:
+                                    // the version's DepthTerms give it
   std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
   Flags flags;
   ConfigVersionId config;  // the version that computed depth, discharge and flags

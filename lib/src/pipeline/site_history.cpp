@@ -21,6 +21,23 @@ bool within_stage_range(const ChecksSpec& checks, double stage) {
          !(checks.max_stage && stage > *checks.max_stage);
 }
 
+// How this segment's version turns stage into depth (stored with the version: see DepthTerms).
+DepthTerms depth_terms(const SiteConfig& keys, const StageCorrection* correction,
+                       units::System system) {
+  DepthTerms terms{.stage_offset = keys.stage.offset,
+                   .zero_flow = keys.stage.zero_flow,
+                   .stage_unit_m = units::to_m(keys.stage.units),
+                   .length_unit_m = units::length_to_m(system),
+                   .correction = std::nullopt};
+  if (correction != nullptr) {
+    terms.correction = DepthTerms::Correction{.from_ms = correction->from_ms,
+                                              .to_ms = correction->to_ms,
+                                              .offset = correction->offset,
+                                              .drift = correction->drift};
+  }
+  return terms;
+}
+
 }  // namespace
 
 struct SiteHistory::Hydraulics {
@@ -70,8 +87,9 @@ Result<SiteHistory> SiteHistory::open(Store& store, SiteKey key, const SiteConfi
       history.hydraulics_.push_back(std::move(hydraulics));
     }
     segment.hydraulics = found->second;
-    auto version = store.versions().record(
-        key, site_config_json(*segment.keys, system, segment.correction), now_ms);
+    auto version =
+        store.versions().record(key, site_config_json(*segment.keys, system, segment.correction),
+                                now_ms, depth_terms(*segment.keys, segment.correction, system));
     if (!version) return std::unexpected(version.error());
     segment.version = *version;
     history.segments_.push_back(segment);

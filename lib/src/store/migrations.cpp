@@ -2,6 +2,8 @@
 
 #include <fmt/format.h>
 
+#include "store/depth_terms.hpp"
+
 namespace stagewell::store_detail {
 namespace {
 
@@ -44,6 +46,15 @@ Result<void> refuse_newer(const SchemaState& state, const std::filesystem::path&
                           path.string(), state.user_version, latest_schema_version()));
 }
 
+// What a migration needs done in C++ after its script, in the same transaction.
+Result<void> after_script(sqlite::Connection& connection, int version) {
+  // 6 moved each reading's depth into its version's terms: the versions recorded before it get
+  // theirs from their JSON text (SQLite's own number parsing is not guaranteed to round as
+  // strtod does; the terms must be the doubles the program had).
+  if (version == 6) return fill_depth_terms(connection);
+  return {};
+}
+
 // One migration and its user_version in one transaction: either both are applied or neither.
 Result<void> apply(sqlite::Connection& connection, const Migration& migration) {
   auto failed = [&](const Error& error) {
@@ -58,6 +69,9 @@ Result<void> apply(sqlite::Connection& connection, const Migration& migration) {
   if (!version) return failed(version.error());
   if (*version < migration.version) {
     if (auto done = connection.exec(migration.sql); !done) return failed(done.error());
+    if (auto done = after_script(connection, migration.version); !done) {
+      return failed(done.error());
+    }
     // A pragma takes no parameters; the number is an int from the generated table.
     auto set = connection.exec(fmt::format("PRAGMA user_version = {}", migration.version));
     if (!set) return failed(set.error());

@@ -2,8 +2,12 @@
 // ingest's own writes (insert, add_flags) are the WriteBatch's (write_batch.cpp).
 #include "stagewell/readings_table.hpp"
 
-#include <algorithm>
+#include <fmt/format.h>
 
+#include <algorithm>
+#include <string>
+
+#include "store/depth_terms.hpp"
 #include "store/rows.hpp"
 #include "store/store_core.hpp"
 
@@ -25,6 +29,15 @@ StoredReading stored_reading(SiteKey site, const sqlite::Statement& s) {
                        .discharge = s.column_optional_double(3),
                        .flags = flags_column(s, 4),
                        .config = ConfigVersionId{s.column_int64(5)}};
+}
+
+// A SELECT of the columns stored_reading() takes, depth computed from the version's terms
+// (schema 6), followed by `rest` (a WHERE clause over `readings AS r`, an ORDER BY...).
+std::string stored_readings_sql(std::string_view rest) {
+  return fmt::format(
+      "SELECT r.time_ms, r.stage, {}, r.discharge, r.flags, r.config_id FROM readings AS r "
+      "LEFT JOIN version_depth_terms AS d ON d.config_id = r.config_id {}",
+      store_detail::kDepthSql, rest);
 }
 
 // Binds a site's range of times: ?1 the site, ?2 and ?3 the first and last time (ms).
@@ -83,9 +96,9 @@ Result<bool> or_flags(sqlite::Connection& connection, SiteKey site, std::int64_t
 Result<std::vector<StoredReading>> ReadingsTable::recent(SiteKey site, std::int64_t at_or_before_ms,
                                                          std::size_t count) {
   // Newest first along the primary key, then reversed: the caller replays them in time order.
-  auto select = core_->db().cached(
-      "SELECT time_ms, stage, depth, discharge, flags, config_id FROM readings "
-      "WHERE site_key = ?1 AND time_ms <= ?2 ORDER BY time_ms DESC LIMIT ?3");
+  static const std::string sql = stored_readings_sql(
+      "WHERE r.site_key = ?1 AND r.time_ms <= ?2 ORDER BY r.time_ms DESC LIMIT ?3");
+  auto select = core_->db().cached(sql);
   if (!select) return std::unexpected(select.error());
   (*select)->bind(1, site.value);
   (*select)->bind(2, at_or_before_ms);
@@ -135,9 +148,9 @@ Result<std::optional<TimeSpan>> ReadingsTable::span(SiteKey site) {
 Result<void> ReadingsTable::range(SiteKey site, std::int64_t from_ms, std::int64_t to_ms,
                                   std::size_t max_rows, std::vector<StoredReading>& out) {
   out.clear();
-  auto select = core_->db().cached(
-      "SELECT time_ms, stage, depth, discharge, flags, config_id FROM readings "
-      "WHERE site_key = ?1 AND time_ms BETWEEN ?2 AND ?3 ORDER BY time_ms LIMIT ?4");
+  static const std::string sql = stored_readings_sql(
+      "WHERE r.site_key = ?1 AND r.time_ms BETWEEN ?2 AND ?3 ORDER BY r.time_ms LIMIT ?4");
+  auto select = core_->db().cached(sql);
   if (!select) return std::unexpected(select.error());
   bind_range(**select, site, from_ms, to_ms).bind(4, row_limit(max_rows));
   return each_row(**select, [&](const auto& s) { out.push_back(stored_reading(site, s)); });
@@ -199,16 +212,16 @@ Result<void> ReadingsTable::rewrite(WriteBatch& batch, SiteKey site, std::int64_
       batch, core_, [&](sqlite::Connection& connection) -> Result<void> {
         store_detail::BatchAccess::rewrote_readings(batch);
         auto update = connection.cached(
-            "UPDATE readings SET depth = ?3, discharge = ?4, flags = ?5, config_id = ?6 "
+            "UPDATE readings SET discharge = ?3, flags = ?4, config_id = ?5 "
             "WHERE site_key = ?1 AND time_ms = ?2");
         if (!update) return std::unexpected(update.error());
+        // values.depth is not stored: the new version's terms give it (schema 6).
         auto& s = **update;
         s.bind(1, site.value);
         s.bind(2, time_ms);
-        s.bind(3, values.depth);
-        s.bind(4, values.discharge);
-        s.bind(5, static_cast<std::int64_t>(values.flags.bits()));
-        s.bind(6, values.config.value);
+        s.bind(3, values.discharge);
+        s.bind(4, static_cast<std::int64_t>(values.flags.bits()));
+        s.bind(5, values.config.value);
         return s.run();
       });
 }

@@ -179,6 +179,13 @@ Result<std::unique_ptr<Connection>> Connection::open(const std::filesystem::path
                                                      Access access) {
   // NOMUTEX: one thread at a time (see the header), so SQLite's own locking is not needed.
   // EXRESCODE: extended result codes, so messages say e.g. "SQLITE_IOERR_FSYNC", not "I/O error".
+  // SQLite's memory statistics take a global mutex on every allocation and free, and nothing
+  // here reads them. The setting must come before SQLite initializes, so before the first open
+  // (a C++ static's initializer runs once, other threads waiting for it).
+  static const bool memory_statistics_off = [] {
+    return sqlite3_config(SQLITE_CONFIG_MEMSTATUS, 0) == SQLITE_OK;
+  }();
+  (void)memory_statistics_off;  // SQLITE_MISUSE when SQLite was initialized already: harmless
   int flags = SQLITE_OPEN_NOMUTEX | SQLITE_OPEN_EXRESCODE;
   flags |= access == Access::read_only ? SQLITE_OPEN_READONLY
                                        : (SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE);

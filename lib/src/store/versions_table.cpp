@@ -5,6 +5,7 @@
 #include <cstdint>
 
 #include "stagewell/store_tables.hpp"
+#include "store/depth_terms.hpp"
 #include "store/rows.hpp"
 #include "store/store_core.hpp"
 
@@ -27,7 +28,7 @@ std::string fnv1a_64_hex(std::string_view text) {
 }  // namespace
 
 Result<ConfigVersionId> VersionsTable::record(SiteKey site, std::string_view json,
-                                              std::int64_t now_ms) {
+                                              std::int64_t now_ms, const DepthTerms& depth) {
   auto& connection = core_->db();
   return store_detail::in_own_batch(
       *core_, "record a configuration version", [&](WriteBatch&) -> Result<ConfigVersionId> {
@@ -51,6 +52,10 @@ Result<ConfigVersionId> VersionsTable::record(SiteKey site, std::string_view jso
         auto id = first_row(**select, [](const auto& s) { return s.column_int64(0); });
         if (!id) return std::unexpected(id.error());
         if (!*id) return fail(ErrorKind::database, "a configuration version vanished after insert");
+        // Depth is computed from the version's terms (schema 6), not stored with each reading.
+        if (auto terms = store_detail::record_depth_terms(connection, **id, depth); !terms) {
+          return std::unexpected(terms.error());
+        }
         return ConfigVersionId{**id};
       });
 }

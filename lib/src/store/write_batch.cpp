@@ -38,8 +38,8 @@ Result<sqlite::CachedStatement> reading_insert(sqlite::Connection& connection,
   using Loan = sqlite::CachedStatement;
   if (held != nullptr) return Loan(held, Loan::Bindings::keep);
   auto insert = connection.cached(
-      "INSERT INTO readings (site_key, time_ms, stage, depth, discharge, flags, config_id) "
-      "VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7) ON CONFLICT (site_key, time_ms) DO NOTHING");
+      "INSERT INTO readings (site_key, time_ms, stage, discharge, flags, config_id) "
+      "VALUES (?1, ?2, ?3, ?4, ?5, ?6) ON CONFLICT (site_key, time_ms) DO NOTHING");
   if (insert) held = &**insert;
   return insert;
 }
@@ -54,10 +54,9 @@ Result<InsertResult> insert_reading(sqlite::Connection& connection, sqlite::Stat
     s.bind(1, reading.site.value);
     s.bind(2, reading.time_ms);
     s.bind(3, reading.stage);
-    s.bind(4, reading.depth);
-    s.bind(5, reading.discharge);
-    s.bind(6, static_cast<std::int64_t>(reading.flags.bits()));
-    s.bind(7, reading.config.value);
+    s.bind(4, reading.discharge);  // depth is not stored: the version's terms give it (schema 6)
+    s.bind(5, static_cast<std::int64_t>(reading.flags.bits()));
+    s.bind(6, reading.config.value);
     if (auto done = s.run(); !done) return std::unexpected(done.error());
   }
   if (connection.changes() == 1) return InsertResult{InsertOutcome::stored, std::nullopt};

@@ -1,0 +1,275 @@
+#!/usr/bin/env python3
+"""`stagewell ingest` against a plain SQLite insert of the same rows, as whole processes.
+
+    /usr/bin/python3 tests/bench/ingest_vs_plain.py --build-dir build [--rounds 5] [--rows N]
+        [--service] [--recompute] [--dir DIR]
+
+Writes an invented year of one-minute readings of four sites (2,102,400 readings, one 70 MB CSV
+file, with its configuration: `ingest_bench --write-only`), then in each round runs, on fresh
+databases and in alternating order:
+
+  ingest     `stagewell ingest --config bench.yaml full.csv`, start to exit;
+  plain      `plain_insert full.csv plain.db` (tests/bench/plain_insert.cpp), start to exit: one
+             prepared INSERT into a plain (site, time, stage, discharge, flags) WITHOUT ROWID
+             table, WAL, synchronous=NORMAL, 10,000-row transactions; nothing of stagewell.
+
+and prints each round's ratio plain seconds / ingest seconds (1.0: as fast as SQLite alone) and
+their median, the ingest's peak resident memory, and the database bytes per stored reading.
+
+--service adds, to each round, the running service fed the same file two ways, each timed from the
+first byte offered to the last reading committed, and paired with that round's ingest:
+  drop folder  the file renamed into the service's folder, until the log says it is read to its end;
+  send         `stagewell send` to the service's tcp source, start to exit (every line's `ok`).
+
+--recompute adds, after the rounds, `stagewell recompute` of one site-year (raceway-a, 525,600
+readings) after its roughness is changed, start to exit: readings per second.
+
+Never run by ctest: the figures go in README ("Performance").
+"""
+import argparse
+import os
+import re
+import shutil
+import signal
+import socket
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+SITE_YEAR = 525_600  # one site's readings in the file
+
+
+def run_timed(command, **kwargs):
+    """Runs `command` to its end: (wall seconds, peak RSS in MiB). Exits on failure."""
+    start = time.monotonic()
+    process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, **kwargs)
+    output = process.stdout.read()
+    _, status, usage = os.wait4(process.pid, 0)
+    elapsed = time.monotonic() - start
+    process.returncode = os.waitstatus_to_exitcode(status)
+    if process.returncode != 0:
+        sys.exit(f"{' '.join(command)} failed ({process.returncode}):\n"
+                 + output.decode(errors="replace")[-3000:])
+    return elapsed, usage.ru_maxrss / 1024.0
+
+
+def remove_database(path):
+    for suffix in ("", "-wal", "-shm", ".service-lock"):
+        try:
+            os.remove(path + suffix)
+        except FileNotFoundError:
+            pass
+
+
+def database_bytes(path):
+    return sum(os.path.getsize(path + s) for s in ("", "-wal") if os.path.exists(path + s))
+
+
+def stored_readings(path):
+    import sqlite3
+    with sqlite3.connect(f"file:{path}?mode=ro", uri=True) as db:
+        return db.execute("SELECT count(*) FROM readings").fetchone()[0]
+
+
+def free_port():
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def wait_port(port, timeout_s=30):
+    deadline = time.monotonic() + timeout_s
+    while time.monotonic() < deadline:
+        try:
+            socket.create_connection(("127.0.0.1", port), timeout=1).close()
+            return
+        except OSError:
+            time.sleep(0.02)
+    sys.exit(f"nothing listens on port {port}")
+
+
+class Service:
+    """stagewelld on the benchmark's configuration plus a drop folder and a tcp source."""
+
+    def __init__(self, stagewelld, root, base_yaml, database):
+        self.root = root
+        self.incoming = os.path.join(root, "incoming")
+        os.makedirs(self.incoming, exist_ok=True)
+        self.port = free_port()
+        text = open(base_yaml).read()
+        sources = (f"sources:\n  - type: directory\n    path: {self.incoming}\n"
+                   f"  - type: tcp\n    listen: 127.0.0.1:{self.port}\n")
+        text = re.sub(r"^database: .*$", f"database: {database}\n{sources}", text, count=1,
+                      flags=re.M)
+        self.config = os.path.join(root, "service.yaml")
+        with open(self.config, "w") as f:
+            f.write(text)
+        self.log_path = os.path.join(root, "stagewelld.log")
+        self.log_file = open(self.log_path, "wb")
+        self.process = subprocess.Popen([stagewelld, "--config", self.config],
+                                        stdout=self.log_file, stderr=self.log_file)
+        wait_port(self.port)
+
+    def log(self):
+        with open(self.log_path, errors="replace") as f:
+            return f.read()
+
+    def wait_for(self, text, timeout_s):
+        deadline = time.monotonic() + timeout_s
+        while time.monotonic() < deadline:
+            if text in self.log():
+                return True
+            time.sleep(0.005)
+        return False
+
+    def stop(self):
+        self.process.send_signal(signal.SIGTERM)
+        if self.process.wait(timeout=60) != 0:
+            sys.exit("stagewelld failed:\n" + self.log()[-3000:])
+        self.log_file.close()
+
+
+def drop_folder_round(stagewelld, root, base_yaml, csv):
+    database = os.path.join(root, "service.db")
+    remove_database(database)
+    service = Service(stagewelld, root, base_yaml, database)
+    try:
+        part = os.path.join(service.incoming, "year.csv.part")
+        os.link(csv, part)
+        past = time.time() - 60  # old enough to be taken at once
+        os.utime(part, (past, past))
+        start = time.monotonic()
+        os.rename(part, os.path.join(service.incoming, "year.csv"))
+        if not service.wait_for("year.csv: read to the end", 900):
+            sys.exit("the file was not read to its end:\n" + service.log()[-3000:])
+        return time.monotonic() - start
+    finally:
+        service.stop()
+        remove_database(database)
+        shutil.rmtree(service.incoming, ignore_errors=True)
+
+
+def send_round(stagewelld, stagewell, root, base_yaml, csv):
+    database = os.path.join(root, "service.db")
+    remove_database(database)
+    service = Service(stagewelld, root, base_yaml, database)
+    try:
+        seconds, _ = run_timed([stagewell, "send", "--host", "127.0.0.1", "--port",
+                                str(service.port), "--quiet", csv])
+        return seconds
+    finally:
+        service.stop()
+        remove_database(database)
+        shutil.rmtree(service.incoming, ignore_errors=True)
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--build-dir", default="build")
+    parser.add_argument("--rounds", type=int, default=5)
+    parser.add_argument("--rows", type=int, default=4 * SITE_YEAR)
+    parser.add_argument("--service", action="store_true")
+    parser.add_argument("--recompute", action="store_true")
+    parser.add_argument("--dir", help="work here (default: a temporary directory)")
+    args = parser.parse_args()
+    build = os.path.abspath(args.build_dir)
+    stagewell = os.path.join(build, "daemon", "stagewell")
+    stagewelld = os.path.join(build, "daemon", "stagewelld")
+    plain = os.path.join(build, "tests", "bench", "plain_insert")
+    writer = os.path.join(build, "tests", "bench", "ingest_bench")
+    for program in (stagewell, stagewelld, plain, writer):
+        if not os.access(program, os.X_OK):
+            sys.exit(f"not built: {program}")
+
+    root = os.path.abspath(args.dir) if args.dir else tempfile.mkdtemp(prefix="stagewell-vs-")
+    os.makedirs(root, exist_ok=True)
+    try:
+        subprocess.run([writer, "--write-only", "--dir", root, "--rows", str(args.rows)],
+                       check=True, stdout=subprocess.DEVNULL)
+        csv, yaml = os.path.join(root, "full.csv"), os.path.join(root, "bench.yaml")
+        ingest_db, plain_db = os.path.join(root, "ingest.db"), os.path.join(root, "plain.db")
+        rows = sum(1 for _ in open(csv)) - 1
+        print(f"{rows:,} readings, {os.path.getsize(csv) / 1e6:.0f} MB of CSV; "
+              f"{args.rounds} rounds, order alternating")
+
+        ratios, drop_ratios, send_ratios = [], [], []
+        ingest_seconds, plain_seconds, rss, per_reading = [], [], [], []
+        for round_number in range(1, args.rounds + 1):
+            remove_database(ingest_db)
+            remove_database(plain_db)
+            runs = {}
+
+            def ingest():
+                runs["ingest"] = run_timed([stagewell, "ingest", "--quiet", "--config", yaml, csv])
+
+            def plain_insert():
+                runs["plain"] = run_timed([plain, csv, plain_db])
+
+            for run in ((ingest, plain_insert) if round_number % 2 else (plain_insert, ingest)):
+                run()
+            stored = stored_readings(ingest_db)
+            if stored != rows:
+                sys.exit(f"the ingest stored {stored} readings of {rows}")
+            (ingest_s, ingest_rss), (plain_s, _) = runs["ingest"], runs["plain"]
+            ingest_seconds.append(ingest_s)
+            plain_seconds.append(plain_s)
+            rss.append(ingest_rss)
+            per_reading.append(database_bytes(ingest_db) / rows)
+            ratios.append(plain_s / ingest_s)
+            line = (f"round {round_number}: ingest {ingest_s:.2f} s ({rows / ingest_s:,.0f}/s, "
+                    f"peak RSS {ingest_rss:.1f} MiB), plain {plain_s:.2f} s: "
+                    f"{ratios[-1]:.3f} x plain")
+            if args.service:
+                drop_s = drop_folder_round(stagewelld, root, yaml, csv)
+                send_s = send_round(stagewelld, stagewell, root, yaml, csv)
+                drop_ratios.append(ingest_s / drop_s)
+                send_ratios.append(ingest_s / send_s)
+                line += (f"; drop folder {drop_s:.2f} s ({drop_ratios[-1]:.3f} x ingest), "
+                         f"send {send_s:.2f} s ({send_ratios[-1]:.3f} x ingest)")
+            print(line, flush=True)
+
+        def show(name, values, target):
+            median = statistics.median(values)
+            each = ", ".join(f"{v:.3f}" for v in values)
+            verdict = "met" if median >= target else "MISSED"
+            print(f"{name}: median {median:.3f} ({each}); target >= {target}: {verdict}")
+
+        print()
+        print(f"ingest: {statistics.median(ingest_seconds):.2f} s median, "
+              f"{rows / min(ingest_seconds):,.0f} readings/s at best; plain: "
+              f"{statistics.median(plain_seconds):.2f} s median, "
+              f"{rows / min(plain_seconds):,.0f} rows/s at best")
+        show("ingest speed / plain insert speed", ratios, 0.8)
+        if args.service:
+            show("drop folder speed / ingest speed", drop_ratios, 0.9)
+            show("send speed / ingest speed", send_ratios, 0.9)
+        print(f"ingest peak RSS: {max(rss):.1f} MiB at most; target <= 64 MiB: "
+              f"{'met' if max(rss) <= 64 else 'MISSED'}")
+        print(f"database bytes per stored reading: {statistics.median(per_reading):.1f} "
+              f"(plain table: {database_bytes(plain_db) / rows:.1f}); target <= 40: "
+              f"{'met' if statistics.median(per_reading) <= 40 else 'MISSED'}")
+
+        if args.recompute:
+            text = open(yaml).read()
+            changed = text.replace("roughness: 0.014\n", "roughness: 0.015\n", 1)
+            if changed == text:
+                sys.exit("could not change raceway-a's roughness in bench.yaml")
+            edited = os.path.join(root, "recompute.yaml")
+            with open(edited, "w") as f:
+                f.write(changed)
+            seconds, _ = run_timed([stagewell, "recompute", "--quiet", "--config", edited,
+                                    "--site", "raceway-a"])
+            site_readings = rows // 4
+            rate = site_readings / seconds
+            print(f"recompute of one site ({site_readings:,} readings): {seconds:.2f} s, "
+                  f"{rate:,.0f} readings/s; target >= 250,000: "
+                  f"{'met' if rate >= 250_000 else 'MISSED'}")
+    finally:
+        if not args.dir:
+            shutil.rmtree(root, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()
