@@ -63,7 +63,7 @@ void TcpSession::start(TcpLink link) {
 void TcpSession::read() {
   if (reading_ || closed_) return;
   if (!draining_ &&
-      (closing_ || chunk_at_writer_ || input_done_ || unsent_bytes() >= max_reply_bytes_ / 2)) {
+      (closing_ || chunks_at_writer_ >= kChunksAtWriter || input_done_ || unsent_bytes() >= max_reply_bytes_ / 2)) {
     return;
   }
   reading_ = true;
@@ -88,7 +88,7 @@ void TcpSession::on_read(const error_code& error, std::size_t bytes) {
   if (error == asio::error::eof) {
     // The client has sent everything; it may still wait for its acknowledgements.
     input_done_ = true;
-    chunk_at_writer_ = true;
+    ++chunks_at_writer_;
     last_activity_ = Clock::now();
     writer_.finish(id_);
     return;
@@ -102,7 +102,7 @@ void TcpSession::on_read(const error_code& error, std::size_t bytes) {
     return;
   }
   last_activity_ = Clock::now();
-  chunk_at_writer_ = true;
+  ++chunks_at_writer_;
   ++chunks_;
   writer_.feed(id_, std::string(buffer_.data(), bytes));
 }
@@ -112,7 +112,7 @@ void TcpSession::on_read(const error_code& error, std::size_t bytes) {
 void TcpSession::on_report(TcpReport report) {
   if (closed_) return;
   pending_ += report.replies;
-  if (report.took_chunk) chunk_at_writer_ = false;
+  if (report.took_chunk && chunks_at_writer_ > 0) --chunks_at_writer_;
   awaiting_commit_ = report.awaiting_commit;
   authenticated_ = report.authenticated;
   last_activity_ = Clock::now();  // held back by the service, not idle
@@ -132,7 +132,7 @@ void TcpSession::on_report(TcpReport report) {
     return;
   }
   flush();
-  if (input_done_ && !chunk_at_writer_ && !awaiting_commit_) {
+  if (input_done_ && chunks_at_writer_ == 0 && !awaiting_commit_) {
     close_with("");  // everything it sent is acknowledged
   } else {
     read();

@@ -39,6 +39,10 @@ class Writer;
 class TcpSession : public std::enable_shared_from_this<TcpSession> {
  public:
   static constexpr std::size_t kReadBufferBytes = 16 * 1024;
+  // Chunks a connection may have at the writer at once: with two, the next chunk is read while
+  // the writer takes the last, so neither thread waits for the other; a client still cannot queue
+  // more than 2 × kReadBufferBytes there.
+  static constexpr int kChunksAtWriter = 2;
 
   TcpSession(boost::asio::ip::tcp::socket socket, std::uint64_t id, std::string peer,
              const TcpSpec& limits, std::shared_ptr<TcpListener> listener, Writer& writer);
@@ -65,7 +69,7 @@ class TcpSession : public std::enable_shared_from_this<TcpSession> {
   void arm_timer();
   void on_timer();
   std::size_t unsent_bytes() const { return pending_.size() + sending_.size(); }
-  bool held_by_writer() const { return chunk_at_writer_ || awaiting_commit_; }
+  bool held_by_writer() const { return chunks_at_writer_ > 0 || awaiting_commit_; }
 
   boost::asio::ip::tcp::socket socket_;
   boost::asio::steady_timer timer_;
@@ -82,7 +86,7 @@ class TcpSession : public std::enable_shared_from_this<TcpSession> {
   std::int64_t chunks_ = 0;  // chunks handed to the writer
   bool reading_ = false;
   bool writing_ = false;
-  bool chunk_at_writer_ = false;  // a chunk (or the end of input) waits to be taken
+  int chunks_at_writer_ = 0;  // chunks (and the end of input) sent to the writer, not yet taken
   bool awaiting_commit_ = false;  // the writer holds lines of ours until its next commit
   bool authenticated_ = false;
   bool input_done_ = false;  // the client sent its last byte (EOF), and the writer was told
