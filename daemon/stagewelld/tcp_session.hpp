@@ -38,7 +38,10 @@ class Writer;
 
 class TcpSession : public std::enable_shared_from_this<TcpSession> {
  public:
-  static constexpr std::size_t kReadBufferBytes = 16 * 1024;
+  // Bytes read from the socket at once, and so the most one chunk for the writer holds: large
+  // enough that the hand-over between the threads costs little per line (16 KiB made a bulk
+  // `stagewell send` about 10 % slower), small enough for many idle connections.
+  static constexpr std::size_t kReadBufferBytes = 64 * 1024;
   // Chunks a connection may have at the writer at once: with two, the next chunk is read while
   // the writer takes the last, so neither thread waits for the other; a client still cannot queue
   // more than 2 × kReadBufferBytes there.

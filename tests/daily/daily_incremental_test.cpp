@@ -210,7 +210,7 @@ TEST_CASE_FIXTURE(
     if (start >= step) readings.push_back(all[start - 7]);
     for (const auto& r : readings) {
       auto inserted = batch->insert(r);
-      REQUIRE(inserted.has_value());
+      REQUIRE_MESSAGE(inserted.has_value(), inserted.error().message);
       keeper->stored(r.site, {r.time_ms, r.discharge, r.flags});
     }
     REQUIRE(keeper->update(store, *batch).has_value());

@@ -126,6 +126,47 @@ TEST_CASE("the last N readings at or before a time, oldest first, of one site on
   CHECK(store.readings().count(site.key) == 10);
 }
 
+TEST_CASE("readings later than all stored are inserted in groups, and every statement sees them") {
+  // Readings newer than everything stored for their site are held and inserted several in one
+  // statement; whatever runs next in the batch (a read, an update, a repeat, the commit) must find
+  // them, and a rollback must leave none.
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto site = test::add_site(store, "raceway-a");
+  const auto other = test::add_site(store, "feeder-canal");
+  constexpr int kReadings = 200;  // three groups of 64 and 8 left
+  for (const bool commit : {false, true}) {
+    CAPTURE(commit);
+    auto batch = store.begin();
+    REQUIRE(batch.has_value());
+    for (int i = 0; i < kReadings; ++i) {
+      auto inserted = batch->insert(test::reading(i % 2 ? other : site, 60'000 * i, 0.5 + i));
+      REQUIRE_MESSAGE(inserted.has_value(), inserted.error().message);
+      CHECK(inserted->outcome == InsertOutcome::stored);
+      if (i == 130) {
+        CHECK(store.readings().count() == 131);          // a read sees every one so far
+        CHECK(batch->add_flags(site.key, 60'000 * 130, Flag::spike) == true);  // the last one
+      }
+    }
+    // The same time again (held a moment ago): a repeat, and a conflict with another stage.
+    const auto repeat = batch->insert(test::reading(site, 60'000 * 198, 0.5 + 198));
+    REQUIRE(repeat.has_value());
+    CHECK(repeat->outcome == InsertOutcome::duplicate);
+    const auto conflict = batch->insert(test::reading(other, 60'000 * 199, 7.0));
+    REQUIRE(conflict.has_value());
+    CHECK(conflict->outcome == InsertOutcome::conflict);
+    CHECK(conflict->stored_stage == 0.5 + 199);
+    if (!commit) continue;  // rolled back as it goes out of scope: nothing may stay
+    REQUIRE(batch->commit().has_value());
+  }
+  CHECK(store.readings().count() == kReadings);
+  auto raw = raw_connection(dir.db());
+  CHECK(query_int(*raw, "SELECT count(*) FROM discharge WHERE stage = 0.5 + round(unix_time / 60) "
+                        "AND discharge = 2 * stage") == kReadings);
+  CHECK(query_int(*raw, "SELECT flags FROM readings WHERE time_ms = 60000 * 130") ==
+        static_cast<std::int64_t>(Flag::spike));
+}
+
 TEST_CASE("a reading that is not finite is refused and spoils the batch") {
   TempDir dir;
   Store store = test::open_store(dir.db());

@@ -70,7 +70,8 @@ TEST_CASE("discharge view: RFC 3339 UTC time text and unix_time in seconds") {
   // Each case gets its own stage (its index), to find its row without using the time columns.
   auto batch = store.begin();
   for (std::size_t i = 0; i < std::size(cases); ++i) {
-    REQUIRE(batch->insert(test::reading(site, cases[i].ms, static_cast<double>(i))).has_value());
+    auto inserted = batch->insert(test::reading(site, cases[i].ms, static_cast<double>(i)));
+    REQUIRE_MESSAGE(inserted.has_value(), inserted.error().message);
   }
   REQUIRE(batch->commit().has_value());
 

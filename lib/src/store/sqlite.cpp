@@ -110,6 +110,9 @@ int Statement::step_code() {
 }
 
 Result<bool> Statement::step() {
+  if (connection_->held_ != nullptr) {
+    if (auto written = connection_->write_held(); !written) return std::unexpected(written.error());
+  }
   const int rc = step_code();
   if (rc == SQLITE_ROW) return true;
   if (rc == SQLITE_DONE) return false;
@@ -221,6 +224,14 @@ Result<CachedStatement> Connection::cached(std::string_view sql) {
         cache_.emplace(std::string(sql), std::make_unique<Statement>(std::move(*statement))).first;
   }
   return CachedStatement(found->second.get());
+}
+
+Result<void> Connection::write_held() {
+  if (held_ == nullptr || writing_held_ || !held_->any()) return {};
+  writing_held_ = true;
+  auto written = held_->write();
+  writing_held_ = false;
+  return written;
 }
 
 Result<void> Connection::exec(std::string_view sql) {

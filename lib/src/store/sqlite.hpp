@@ -42,6 +42,18 @@ bool is_busy(int code);
 // sequence of bind() calls needs no checks of its own. Parameter indexes start at 1, column
 // indexes at 0 (as in SQLite).
 // REQUIRES: does not outlive the Connection that prepared it.
+// Writes that a connection's owner holds back to do several in one statement (the store's
+// readings known to be new). They are done before any other statement of the connection steps,
+// so every statement sees the database as if they had been done at once.
+class HeldWrites {
+ public:
+  virtual bool any() const = 0;
+  virtual Result<void> write() = 0;
+
+ protected:
+  ~HeldWrites() = default;
+};
+
 class Statement {
  public:
   Statement(Statement&& other) noexcept;
@@ -149,6 +161,11 @@ class Connection {
   sqlite3* handle() const { return db_; }
 
   void set_step_hook(StepHook hook) { step_hook_ = std::move(hook); }
+  // `held` (or nothing) is written before any statement of this connection steps, except those
+  // `held.write()` itself runs. Not owned.
+  void set_held_writes(HeldWrites* held) { held_ = held; }
+  // Writes what is held now, if anything (the statements it runs do not write it again).
+  Result<void> write_held();
   // Installs SQLite's busy handler: from now on every statement that meets a lock another
   // connection holds waits as `wait` says. Without it a busy lock fails the statement at once.
   void set_lock_wait(LockWait wait);
@@ -170,6 +187,8 @@ class Connection {
   std::filesystem::path path_;
   Access access_;
   StepHook step_hook_;
+  HeldWrites* held_ = nullptr;
+  bool writing_held_ = false;
   LockWait lock_wait_;
   bool waits_for_locks_ = false;  // set_lock_wait() was called
   // The wait of the statement running now (one at a time: see the top of the file).

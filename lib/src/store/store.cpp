@@ -60,6 +60,7 @@ std::unique_ptr<Core> make_core(std::unique_ptr<Connection> connection,
                                 const StoreOptions& options) {
   auto core = std::make_unique<Core>();
   core->connection = std::move(connection);
+  core->connection->set_held_writes(core.get());
   core->options = options;
   core->schema_version = store_detail::latest_schema_version();
   return core;

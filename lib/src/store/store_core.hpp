@@ -6,14 +6,20 @@
 #include <optional>
 #include <string_view>
 #include <type_traits>
+#include <unordered_map>
 #include <utility>
+#include <vector>
 
 #include "stagewell/store.hpp"
 #include "store/sqlite.hpp"
 
 namespace stagewell::store_detail {
 
-struct Core {
+// Readings inserted with one statement of this many rows when they are known to be new (later than
+// everything stored for their site): the per-statement work of SQLite is shared among them.
+inline constexpr std::size_t kReadingsPerInsert = 64;
+
+struct Core final : sqlite::HeldWrites {
   std::unique_ptr<sqlite::Connection> connection;
   StoreOptions options;
   int schema_version = 0;
@@ -21,10 +27,29 @@ struct Core {
   // The per-reading INSERT, held once prepared so that each reading skips the statement cache's
   // look-up (which hashes the SQL text). Owned by the connection's cache.
   sqlite::Statement* insert_reading = nullptr;
+  sqlite::Statement* insert_readings = nullptr;  // kReadingsPerInsert rows, held likewise
+
+  // Readings of the open batch known to be new, not yet inserted: written kReadingsPerInsert at a
+  // time, and the rest before any other statement of the connection steps (HeldWrites), so that
+  // every read, update and the COMMIT see them. Dropped when the batch rolls back.
+  std::vector<StoredReading> held_readings;
+  // Each site's latest stored time in the open batch (its write lock held, no other connection
+  // can add one), looked up once per site and batch; nullopt for a site with none stored.
+  std::unordered_map<std::int64_t, std::optional<std::int64_t>> latest_ms;
+  // Held readings were found stored already (never, under the write lock): the outcomes given for
+  // them were wrong, and the batch cannot be committed.
+  bool held_failed = false;
   // Batches committed that rewrote stored readings (Store::stored_readings_changed).
   std::int64_t readings_rewrites = 0;
 
   sqlite::Connection& db() { return *connection; }
+
+  // WriteBatch::insert: held when known new, else inserted at once (write_batch.cpp).
+  Result<InsertResult> insert(const StoredReading& reading);
+  // Forgets held readings and latest times: at the start and end of every batch.
+  void end_of_batch();
+  bool any() const override { return !held_readings.empty(); }
+  Result<void> write() override;  // the held readings
 
   // Fails (invalid_argument) on a read-only store, naming what was attempted.
   Result<void> require_writable(std::string_view doing) const;

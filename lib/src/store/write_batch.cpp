@@ -2,12 +2,16 @@
 #include <fmt/format.h>
 
 #include <cmath>
+#include <string>
 
 #include "stagewell/store.hpp"
+#include "store/rows.hpp"
 #include "store/store_core.hpp"
 
 namespace stagewell {
 namespace {
+
+using store_detail::kReadingsPerInsert;
 
 bool is_continuation_byte(char c) { return (static_cast<unsigned char>(c) & 0xC0) == 0x80; }
 
@@ -31,6 +35,15 @@ Result<void> check_finite(const StoredReading& reading) {
                           reading.time_ms));
 }
 
+void bind_reading(sqlite::Statement& s, int first, const StoredReading& reading) {
+  s.bind(first, reading.site.value);
+  s.bind(first + 1, reading.time_ms);
+  s.bind(first + 2, reading.stage);
+  s.bind(first + 3, reading.discharge);  // depth is not stored: the version's terms give it
+  s.bind(first + 4, static_cast<std::int64_t>(reading.flags.bits()));
+  s.bind(first + 5, reading.config.value);
+}
+
 // The reading INSERT on loan. `held` keeps it once prepared (Core::insert_reading). Every
 // parameter is bound for each reading, so the loan keeps the bindings instead of clearing them.
 Result<sqlite::CachedStatement> reading_insert(sqlite::Connection& connection,
@@ -51,12 +64,7 @@ Result<InsertResult> insert_reading(sqlite::Connection& connection, sqlite::Stat
     auto insert = reading_insert(connection, held);
     if (!insert) return std::unexpected(insert.error());
     auto& s = **insert;
-    s.bind(1, reading.site.value);
-    s.bind(2, reading.time_ms);
-    s.bind(3, reading.stage);
-    s.bind(4, reading.discharge);  // depth is not stored: the version's terms give it (schema 6)
-    s.bind(5, static_cast<std::int64_t>(reading.flags.bits()));
-    s.bind(6, reading.config.value);
+    bind_reading(s, 1, reading);
     if (auto done = s.run(); !done) return std::unexpected(done.error());
   }
   if (connection.changes() == 1) return InsertResult{InsertOutcome::stored, std::nullopt};
@@ -71,6 +79,35 @@ Result<InsertResult> insert_reading(sqlite::Connection& connection, sqlite::Stat
   return InsertResult{outcome, *stored};
 }
 
+// The INSERT of kReadingsPerInsert readings, on loan like reading_insert's.
+Result<sqlite::CachedStatement> readings_insert(sqlite::Connection& connection,
+                                                sqlite::Statement*& held) {
+  using Loan = sqlite::CachedStatement;
+  if (held != nullptr) return Loan(held, Loan::Bindings::keep);
+  std::string sql =
+      "INSERT INTO readings (site_key, time_ms, stage, discharge, flags, config_id) VALUES ";
+  for (std::size_t i = 0; i < kReadingsPerInsert; ++i) {
+    sql += i == 0 ? "(?,?,?,?,?,?)" : ",(?,?,?,?,?,?)";
+  }
+  sql += " ON CONFLICT (site_key, time_ms) DO NOTHING";
+  auto insert = connection.cached(sql);
+  if (insert) held = &**insert;
+  return insert;
+}
+
+// The latest stored time of `site`, nullopt when it has none.
+Result<std::optional<std::int64_t>> latest_stored_ms(sqlite::Connection& connection,
+                                                    SiteKey site) {
+  auto select = connection.cached("SELECT max(time_ms) FROM readings WHERE site_key = ?1");
+  if (!select) return std::unexpected(select.error());
+  (*select)->bind(1, site.value);
+  auto row = store_detail::first_row(**select, [](const auto& s) {
+    return s.column_is_null(0) ? std::optional<std::int64_t>() : s.column_int64(0);
+  });
+  if (!row) return std::unexpected(row.error());
+  return row->value_or(std::nullopt);
+}
+
 // BEGIN IMMEDIATE, COMMIT, ROLLBACK. A lock another connection holds is waited for inside the
 // step (StoreOptions).
 Result<void> run(sqlite::Connection& connection, std::string_view sql) {
@@ -80,6 +117,80 @@ Result<void> run(sqlite::Connection& connection, std::string_view sql) {
 }
 
 }  // namespace
+
+Result<InsertResult> store_detail::Core::insert(const StoredReading& reading) {
+  if (auto ok = check_finite(reading); !ok) return std::unexpected(ok.error());
+  auto latest = latest_ms.find(reading.site.value);
+  if (latest == latest_ms.end()) {
+    auto stored = latest_stored_ms(*connection, reading.site);
+    if (!stored) return std::unexpected(stored.error());
+    latest = latest_ms.emplace(reading.site.value, *stored).first;
+  }
+  if (latest->second && reading.time_ms <= *latest->second) {
+    // Maybe stored already: inserted at once, to tell a repeat from a new reading. The held ones
+    // go first, and explicitly: writing them uses the statement this insert binds.
+    if (auto written = connection->write_held(); !written) {
+      return std::unexpected(written.error());
+    }
+    return stagewell::insert_reading(*connection, insert_reading, reading);
+  }
+  // Later than everything stored for its site: certainly new, and held to be inserted with
+  // others (the outcome is known now; a failure to write it fails the batch).
+  latest->second = reading.time_ms;
+  held_readings.push_back(reading);
+  if (held_readings.size() == kReadingsPerInsert) {
+    if (auto written = connection->write_held(); !written) {
+      return std::unexpected(written.error());
+    }
+  }
+  return InsertResult{InsertOutcome::stored, std::nullopt};
+}
+
+Result<void> store_detail::Core::write() {
+  // A failed statement leaves the readings it did not write held: they are tried again before
+  // the next statement, so that the batch stays whole whatever its caller then decides.
+  auto& rows = held_readings;
+  std::size_t written = 0;
+  std::size_t found_stored = 0;
+  if (rows.size() == kReadingsPerInsert) {
+    auto insert = readings_insert(*connection, insert_readings);
+    if (!insert) return std::unexpected(insert.error());
+    for (std::size_t i = 0; i < rows.size(); ++i) {
+      bind_reading(**insert, static_cast<int>(6 * i + 1), rows[i]);
+    }
+    if (auto done = (*insert)->run(); !done) return std::unexpected(done.error());
+    written = rows.size();
+    found_stored = rows.size() - static_cast<std::size_t>(connection->changes());
+  } else {
+    for (const auto& row : rows) {
+      auto inserted = stagewell::insert_reading(*connection, insert_reading, row);
+      if (!inserted) {
+        rows.erase(rows.begin(), rows.begin() + static_cast<std::ptrdiff_t>(written));
+        return std::unexpected(inserted.error());
+      }
+      ++written;
+      if (inserted->outcome != InsertOutcome::stored) ++found_stored;
+    }
+  }
+  const std::size_t count = rows.size();
+  rows.clear();
+  if (found_stored > 0) {
+    // Cannot happen while the batch holds the write lock; if it did, the outcomes already given
+    // for these readings would be wrong, so the batch must not be committed.
+    held_failed = true;
+    return fail(ErrorKind::database,
+                fmt::format("{} of {} readings held as new were stored already; the batch is "
+                            "dropped",
+                            found_stored, count));
+  }
+  return {};
+}
+
+void store_detail::Core::end_of_batch() {
+  held_readings.clear();
+  latest_ms.clear();
+  held_failed = false;
+}
 
 Result<WriteBatch> Store::begin() { return store_detail::BatchAccess::begin(*core_); }
 
@@ -99,6 +210,7 @@ Result<WriteBatch> store_detail::BatchAccess::begin(Core& core) {
   // and then writes can fail half-way with a busy error no waiting can cure, when another
   // connection wrote in between (SQLITE_BUSY_SNAPSHOT).
   if (auto ok = run(connection, "BEGIN IMMEDIATE"); !ok) return std::unexpected(ok.error());
+  core.end_of_batch();
   core.batch_open = true;
   return WriteBatch(&core);
 }
@@ -124,7 +236,7 @@ Result<T> WriteBatch::spoil_on_error(Result<T> result) {
 
 Result<InsertResult> WriteBatch::insert(const StoredReading& reading) {
   if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
-  return spoil_on_error(insert_reading(*store_->connection, store_->insert_reading, reading));
+  return spoil_on_error(store_->insert(reading));
 }
 
 Result<bool> WriteBatch::add_flags(SiteKey site, std::int64_t time_ms, Flags flags) {
@@ -171,7 +283,7 @@ Result<void> WriteBatch::set_progress(std::string_view source, const IngestProgr
 
 Result<void> WriteBatch::commit() {
   if (auto ok = check_usable(); !ok) return ok;
-  if (spoiled_) {
+  if (spoiled_ || store_->held_failed) {
     roll_back();
     return fail(ErrorKind::invalid_argument,
                 "a write batch in which a call failed cannot be committed; it was rolled back");
@@ -184,6 +296,7 @@ Result<void> WriteBatch::commit() {
     return committed;
   }
   if (rewrote_readings_) ++store_->readings_rewrites;
+  store_->end_of_batch();
   store_->batch_open = false;
   store_ = nullptr;
   return {};
@@ -192,6 +305,7 @@ Result<void> WriteBatch::commit() {
 void WriteBatch::roll_back() {
   if (store_ == nullptr) return;
   auto& connection = *store_->connection;
+  store_->end_of_batch();  // held readings go with the batch, unwritten
   if (connection.in_transaction()) {
     // If even this fails, the transaction stays open and the next begin() ends it.
     (void)run(connection, "ROLLBACK");
