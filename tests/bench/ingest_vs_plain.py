@@ -34,13 +34,13 @@ import datetime
 import os
 import re
 import shutil
-import signal
-import socket
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
+
+import service_bench  # its Service and port helpers (this folder)
 
 SITE_YEAR = 525_600  # one site's readings in the file
 
@@ -90,62 +90,33 @@ def stored_readings(path):
         return db.execute("SELECT count(*) FROM readings").fetchone()[0]
 
 
-def free_port():
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def wait_port(port, timeout_s=30):
-    deadline = time.monotonic() + timeout_s
-    while time.monotonic() < deadline:
-        try:
-            socket.create_connection(("127.0.0.1", port), timeout=1).close()
-            return
-        except OSError:
-            time.sleep(0.02)
-    sys.exit(f"nothing listens on port {port}")
-
-
-class Service:
+class Service(service_bench.Service):
     """stagewelld on the benchmark's configuration plus a drop folder and a tcp source."""
 
     def __init__(self, stagewelld, root, base_yaml, database):
-        self.root = root
         self.incoming = os.path.join(root, "incoming")
         os.makedirs(self.incoming, exist_ok=True)
-        self.port = free_port()
+        self.port = service_bench.free_port()
         text = open(base_yaml).read()
         sources = (f"sources:\n  - type: directory\n    path: {self.incoming}\n"
                    f"  - type: tcp\n    listen: 127.0.0.1:{self.port}\n")
         text = re.sub(r"^database: .*$", f"database: {database}\n{sources}", text, count=1,
                       flags=re.M)
-        self.config = os.path.join(root, "service.yaml")
-        with open(self.config, "w") as f:
+        config = os.path.join(root, "service.yaml")
+        with open(config, "w") as f:
             f.write(text)
-        self.log_path = os.path.join(root, "stagewelld.log")
-        self.log_file = open(self.log_path, "wb")
-        self.process = subprocess.Popen([stagewelld, "--config", self.config],
-                                        stdout=self.log_file, stderr=self.log_file)
-        wait_port(self.port)
-
-    def log(self):
-        with open(self.log_path, errors="replace") as f:
-            return f.read()
-
-    def wait_for(self, text, timeout_s):
-        deadline = time.monotonic() + timeout_s
-        while time.monotonic() < deadline:
-            if text in self.log():
-                return True
-            time.sleep(0.005)
-        return False
+        try:  # service_bench's log is appended to: each round's must be its own
+            os.remove(os.path.join(root, "stagewelld.log"))
+        except FileNotFoundError:
+            pass
+        super().__init__(stagewelld, root, config)
+        if not service_bench.wait_port(self.port):
+            sys.exit("the service does not listen:\n" + self.log()[-3000:])
 
     def stop(self):
-        self.process.send_signal(signal.SIGTERM)
-        if self.process.wait(timeout=60) != 0:
+        super().stop()
+        if self.process.returncode != 0:
             sys.exit("stagewelld failed:\n" + self.log()[-3000:])
-        self.log_file.close()
 
 
 def drop_folder_round(stagewelld, root, base_yaml, csv):
