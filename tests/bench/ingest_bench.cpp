@@ -24,7 +24,6 @@
 #include <fcntl.h>
 #include <fmt/format.h>
 #include <spdlog/spdlog.h>
-#include <sqlite3.h>
 #include <sys/resource.h>
 #include <sys/wait.h>
 #include <unistd.h>

@@ -135,7 +135,8 @@ Result<InsertResult> store_detail::Core::insert(const StoredReading& reading) {
     return stagewell::insert_reading(*connection, insert_reading, reading);
   }
   // Later than everything stored for its site: certainly new, and held to be inserted with
-  // others (the outcome is known now; a failure to write it fails the batch).
+  // others. The outcome is known now; a failure to write it fails the statement that tried (this
+  // insert, or whichever runs next), and so the batch.
   latest->second = reading.time_ms;
   held_readings.push_back(reading);
   if (held_readings.size() == kReadingsPerInsert) {
