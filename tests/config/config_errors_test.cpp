@@ -34,6 +34,37 @@ database: flows.db       # 2
   CHECK(errors[0].message.starts_with("YAML syntax error: "));
 }
 
+TEST_CASE("text no YAML parser gets past is a syntax error, not a hang") {
+  // A lone `,` (or one after a document) made yaml-cpp's LoadAll return empty documents forever,
+  // growing memory without bound. ctest's timeout would catch a hang here.
+  for (const char* text : {",", ",,", "units: metric\n,", "  ,\n"}) {
+    CAPTURE(text);
+    const auto errors = errors_of(text);
+    INFO(listing(errors));
+    REQUIRE(errors.size() == 1);
+    CHECK(errors[0].message.starts_with("YAML syntax error"));
+  }
+}
+
+TEST_CASE("a second YAML document is refused; so is text larger than any configuration") {
+  const auto two = errors_of("units: metric\n---\nunits: us\n");
+  REQUIRE(two.size() == 1);
+  CHECK(two[0].message.find("more than one YAML document") != std::string::npos);
+
+  // One byte over the limit, of harmless YAML (a comment): refused unread.
+  std::string large = "# " + std::string(stagewell::kMaxConfigBytes - 1, 'x');
+  const auto errors = errors_of(large);
+  REQUIRE(errors.size() == 1);
+  CHECK(errors[0].message.find("more than any configuration needs") != std::string::npos);
+
+  // A file that never ends is read only up to the limit.
+  const auto endless = stagewell::load_config("/dev/zero");
+  REQUIRE_FALSE(endless.has_value());
+  REQUIRE(endless.error().size() == 1);
+  CHECK(endless.error()[0].message.find("more than any configuration needs") !=
+        std::string::npos);
+}
+
 TEST_CASE("unknown unit system") {
   expect_one_error(R"(
 units: imperial          # 1

@@ -99,6 +99,17 @@ def main():
             with open(log_file, errors="replace") as f:
                 R.check("invalid reload: logged to the configured log file too",
                         "keeping the running one" in f.read())
+
+            # SIGHUP with a file that holds one byte, `,`: yaml-cpp's LoadAll never returned on
+            # it (memory grew without bound); now it is an error like any other, and the
+            # service carries on.
+            ds.write(config_path, ",")
+            daemon.signal(signal.SIGHUP)
+            R.check("a `,` configuration on reload: refused, the running one kept",
+                    ds.wait_until(lambda: log_has(daemon, "keeping the running one") == 2, 10),
+                    daemon.log()[-2000:])
+            R.check("a `,` configuration on reload: the error says where",
+                    "1:1: YAML syntax error" in daemon.log(), daemon.log()[-2000:])
             second = [("a", T0 + (10 + i) * MIN, f"{0.5 + 0.05 * i:.2f}") for i in range(3)]
             drop_and_wait("f2.csv", csv(second + [("b", T0 + 10 * MIN, "0.4")]))
             R.check("after an invalid reload the daemon still ingests new files",

@@ -222,6 +222,11 @@ struct ConfigError {
 
 using ConfigResult = std::expected<Config, std::vector<ConfigError>>;
 
+// The most a configuration may hold, in bytes: a real one is a few kilobytes; anything larger is
+// refused before it is parsed (a wrong file, /dev/zero), so reading one is bounded in time and
+// memory.
+inline constexpr std::size_t kMaxConfigBytes = 1024 * 1024;
+
 ConfigResult load_config(const std::filesystem::path& file);
 // `file_name` is used in messages; relative paths resolve against `base_dir`.
 ConfigResult parse_config(std::string_view yaml_text, std::string file_name,

@@ -4,6 +4,9 @@
 #include <fstream>
 #include <sstream>
 
+#include <fmt/format.h>
+#include <yaml-cpp/eventhandler.h>
+
 #include "config/http_keys.hpp"
 #include "config/key_table.hpp"
 #include "config/readers.hpp"
@@ -74,24 +77,64 @@ ConfigError whole_file_error(std::string file, int line, int column, std::string
   return error;
 }
 
+// Where each YAML document starts; the events inside are not needed.
+class DocumentStarts : public YAML::EventHandler {
+ public:
+  std::vector<YAML::Mark> starts;
+  void OnDocumentStart(const YAML::Mark& mark) override { starts.push_back(mark); }
+  void OnDocumentEnd() override {}
+  void OnNull(const YAML::Mark&, YAML::anchor_t) override {}
+  void OnAlias(const YAML::Mark&, YAML::anchor_t) override {}
+  void OnScalar(const YAML::Mark&, const std::string&, YAML::anchor_t,
+                const std::string&) override {}
+  void OnSequenceStart(const YAML::Mark&, const std::string&, YAML::anchor_t,
+                       YAML::EmitterStyle::value) override {}
+  void OnSequenceEnd() override {}
+  void OnMapStart(const YAML::Mark&, const std::string&, YAML::anchor_t,
+                  YAML::EmitterStyle::value) override {}
+  void OnMapEnd() override {}
+};
+
 ConfigResult read_text(std::string_view yaml_text, const std::string& file_name,
                        const std::filesystem::path& base_dir) {
-  std::vector<YAML::Node> documents;
+  if (yaml_text.size() > kMaxConfigBytes) {
+    return std::unexpected(std::vector{whole_file_error(
+        file_name, 0, 0,
+        fmt::format("holds more than {} bytes, more than any configuration needs: is it the right "
+                    "file?",
+                    kMaxConfigBytes))});
+  }
+  // At most two documents are asked for: one to read, and whether another follows. yaml-cpp's
+  // LoadAll asks until the parser says there are no more, which some input never reaches (a lone
+  // `,` gives an empty document at the same place forever).
+  YAML::Node document;
   try {
-    documents = YAML::LoadAll(std::string(yaml_text));
+    std::istringstream stream{std::string(yaml_text)};
+    YAML::Parser parser(stream);
+    DocumentStarts seen;
+    const bool first = parser.HandleNextDocument(seen);
+    const bool second = first && parser.HandleNextDocument(seen);
+    if (second && seen.starts.size() == 2 && seen.starts[0].pos == seen.starts[1].pos) {
+      const YAML::Mark& at = seen.starts[1];
+      return std::unexpected(std::vector{whole_file_error(
+          file_name, at.line + 1, at.column + 1,
+          "YAML syntax error: the text cannot be read from here on (a stray `,`, `]` or `}`?)")});
+    }
+    if (second) {
+      return std::unexpected(std::vector{whole_file_error(
+          file_name, 0, 0, "holds more than one YAML document (`---`); write one configuration")});
+    }
+    if (first) document = YAML::Load(std::string(yaml_text));
   } catch (const YAML::ParserException& e) {
     // e.mark is 0-based; e.msg is the message without yaml-cpp's own "line, column" prefix.
     return std::unexpected(std::vector{whole_file_error(
         file_name, e.mark.line + 1, e.mark.column + 1, "YAML syntax error: " + e.msg)});
   }
-  if (documents.empty() || documents.front().IsNull()) {
+  if (!document.IsDefined() || document.IsNull()) {
     return std::unexpected(std::vector{whole_file_error(
         file_name, 0, 0, "the configuration is empty; it needs at least units, database, sites")});
   }
-  if (documents.size() > 1) {
-    return std::unexpected(std::vector{whole_file_error(
-        file_name, 0, 0, "holds more than one YAML document (`---`); write one configuration")});
-  }
+  const std::vector<YAML::Node> documents{document};
   Context cx(file_name, base_dir);
   Config config;
   config.file = file_name;
@@ -128,16 +171,19 @@ ConfigResult load_config(const std::filesystem::path& file) {
     return std::unexpected(std::vector{whole_file_error(
         file.string(), 0, 0, std::string("cannot open: ") + std::strerror(errno))});
   }
-  std::ostringstream text;
-  text << in.rdbuf();
+  // At most one byte more than a configuration may hold, whatever the file is (/dev/zero, a
+  // pipe, a log file given by mistake): read_text refuses the rest.
+  std::string text(kMaxConfigBytes + 1, '\0');
+  in.read(text.data(), static_cast<std::streamsize>(text.size()));
   if (in.bad()) {
     return std::unexpected(std::vector{whole_file_error(
         file.string(), 0, 0, std::string("cannot read: ") + std::strerror(errno))});
   }
+  text.resize(static_cast<std::size_t>(in.gcount()));
   std::error_code ec;
   std::filesystem::path absolute = std::filesystem::absolute(file, ec);
   if (ec) absolute = file;
-  auto config = parse_config(text.str(), file.string(), absolute.parent_path());
+  auto config = parse_config(text, file.string(), absolute.parent_path());
   if (config) config->file = absolute.lexically_normal();
   return config;
 }
