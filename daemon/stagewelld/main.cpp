@@ -1,5 +1,6 @@
 // `stagewelld`: the service. Runs in the foreground (systemd supervises it: no forking, no pid
 // file) and logs to stderr, and to a file when configured.
+#include <sys/stat.h>
 #include <spdlog/spdlog.h>
 
 #include <CLI/CLI.hpp>
@@ -31,6 +32,10 @@ int main(int argc, char** argv) {
     return code == 0 ? 0 : 2;
   }
 
+  // Whatever umask it was started with (a shell's 022), the database, its -wal and -shm files
+  // and the log are the service's and its group's (analysts reading the database): not others'.
+  // systemd's unit sets the same (UMask=0007).
+  ::umask(S_IRWXO);
   stagewell::service::Logging logging(level);
   boost::asio::io_context io;
   stagewell::service::Service service(io, config_path, logging);

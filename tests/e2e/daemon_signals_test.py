@@ -82,11 +82,19 @@ def main():
         def log_has(daemon, words):
             return "\n".join(daemon.log().splitlines()[-200:]).count(words)
 
+        os.umask(0o022)  # the usual shell umask, whatever ctest was given: the service's own wins
         daemon = ds.Daemon(daemon_program, config_path, os.path.join(root, "daemon.log"))
         try:
             daemon.start()
             first = [("a", T0 + i * MIN, f"{0.3 + 0.05 * i:.2f}") for i in range(5)]
             drop_and_wait("f1.csv", csv(first))
+
+            # The service sets its own umask (this test runs it under the usual 022): what it
+            # creates is not readable by other users. -wal and -shm exist while it runs.
+            for path in (db, db + "-wal", db + "-shm", log_file):
+                mode = os.stat(path).st_mode & 0o777 if os.path.exists(path) else None
+                R.check(f"{os.path.basename(path)} is not readable by others (mode "
+                        f"{mode and oct(mode)})", mode is not None and mode & 0o007 == 0)
 
             # SIGHUP with an invalid configuration (site b's roughness out of bounds).
             ds.write(config_path, config(0.020, extra_site=True, error=True))

@@ -45,6 +45,11 @@ def main():
             f.write("  a-long-enough-shared-secret-0123  \n")
         with open(os.path.join(tmp, "short-secret"), "w") as f:
             f.write("short\n")
+        with open(os.path.join(tmp, "open-secret"), "w") as f:
+            f.write("a-long-enough-shared-secret-0123\n")
+        for name in ("good-secret", "short-secret"):
+            os.chmod(os.path.join(tmp, name), 0o600)  # a secret file is the service's alone
+        os.chmod(os.path.join(tmp, "open-secret"), 0o644)
 
         # (file, source keys, line of the error, fragment of the message)
         bad = [
@@ -57,6 +62,8 @@ def main():
             ("missing.yaml", ["listen: 0.0.0.0:7207", "secret_file: no-such-file"], 6,
              "cannot read the secret file"),
             ("short.yaml", ["secret_file: short-secret"], 5, "not a usable secret"),
+            ("readable.yaml", ["secret_file: open-secret"], 5,
+             "can be read or written by every user of this machine (mode 0644)"),
             ("inline.yaml", ["secret: tiny"], 5, "16 to 1024 characters"),
             ("twice.yaml", ["secret_file: good-secret", "secret_env: STAGEWELL_TEST_SECRET"], 6,
              "one way only"),
@@ -147,6 +154,7 @@ def main():
         os.makedirs(os.path.join(tmp, "ref", "var"))
         with open(os.path.join(tmp, "ref", "var", "tcp-secret"), "w") as f:
             f.write("reference-example-secret-0001\n")
+        os.chmod(os.path.join(tmp, "ref", "var", "tcp-secret"), 0o600)  # as the reference says
         path = os.path.join(tmp, "ref", "cfg", "reference-tcp.yaml")
         with open(path, "w") as f:
             f.write("units: metric\ndatabase: ../var/r.db\nsources:\n" + "\n".join(uncommented) +

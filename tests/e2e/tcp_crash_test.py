@@ -31,6 +31,7 @@ def main():
         secret = "crash-test-shared-secret-7731"
         with open(os.path.join(tmp, "token"), "w") as f:
             f.write(secret + "\n")
+        os.chmod(os.path.join(tmp, "token"), 0o600)  # a secret file is the service's alone
         config = t.write_config(tmp, f"    listen: 127.0.0.1:{port}\n    secret_file: token\n")
         db = os.path.join(tmp, "var", "readings.db")
         daemon = t.Daemon(args.bin_dir, config, os.path.join(tmp, "daemon.log"))

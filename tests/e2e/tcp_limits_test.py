@@ -35,6 +35,7 @@ def main():
         port = t.free_port()
         with open(os.path.join(tmp, "secret"), "w") as f:
             f.write(SECRET + "\n")
+        os.chmod(os.path.join(tmp, "secret"), 0o600)  # a secret file is the service's alone
         config = t.write_config(tmp, (f"    listen: 127.0.0.1:{port}\n    secret_file: secret\n"
                                       f"    max_clients: {MAX_CLIENTS}\n    idle_timeout: {IDLE_S}s\n"
                                       f"    auth_timeout: 1s\n    max_reply_bytes: 4096\n"))

@@ -68,6 +68,17 @@ void read_secret_file(const At& at, Context& cx, SourceSpec& out) {
     cx.error(at, fmt::format("cannot read the secret file: {}", std::strerror(errno)));
     return;
   }
+  // Like a private key: a secret every user of the machine can read is no secret.
+  std::error_code ec;
+  const auto permissions = std::filesystem::status(*path, ec).permissions();
+  using std::filesystem::perms;
+  if (!ec && (permissions & (perms::others_read | perms::others_write)) != perms::none) {
+    cx.error(at, fmt::format("the secret file can be read or written by every user of this "
+                             "machine (mode {:04o}); make it the service's alone, e.g. "
+                             "chmod 600 {}",
+                             static_cast<unsigned>(permissions & perms::mask), path->string()));
+    return;
+  }
   std::string content(kLongestSecret + 64, '\0');  // room for a trailing newline and some spaces
   file.read(content.data(), static_cast<std::streamsize>(content.size()));
   content.resize(static_cast<std::size_t>(file.gcount()));
