@@ -1,7 +1,7 @@
 // `stagewelld`: the service. Runs in the foreground (systemd supervises it: no forking, no pid
 // file) and logs to stderr, and to a file when configured.
-#include <sys/stat.h>
 #include <spdlog/spdlog.h>
+#include <sys/stat.h>
 
 #include <CLI/CLI.hpp>
 #include <boost/asio/io_context.hpp>

@@ -62,8 +62,8 @@ void TcpSession::start(TcpLink link) {
 
 void TcpSession::read() {
   if (reading_ || closed_) return;
-  if (!draining_ &&
-      (closing_ || chunks_at_writer_ >= kChunksAtWriter || input_done_ || unsent_bytes() >= max_reply_bytes_ / 2)) {
+  if (!draining_ && (closing_ || chunks_at_writer_ >= kChunksAtWriter || input_done_ ||
+                     unsent_bytes() >= max_reply_bytes_ / 2)) {
     return;
   }
   reading_ = true;

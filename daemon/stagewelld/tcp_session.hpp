@@ -89,7 +89,7 @@ class TcpSession : public std::enable_shared_from_this<TcpSession> {
   std::int64_t chunks_ = 0;  // chunks handed to the writer
   bool reading_ = false;
   bool writing_ = false;
-  int chunks_at_writer_ = 0;  // chunks (and the end of input) sent to the writer, not yet taken
+  int chunks_at_writer_ = 0;      // chunks (and the end of input) sent to the writer, not yet taken
   bool awaiting_commit_ = false;  // the writer holds lines of ours until its next commit
   bool authenticated_ = false;
   bool input_done_ = false;  // the client sent its last byte (EOF), and the writer was told

@@ -307,9 +307,10 @@ int main(int argc, char** argv) {
   no_daily.keep_daily = false;
 
   // Rounds: each ingests the full file with and without the daily figures, one after the other,
-  // so that both meet the same load on the machine, in alternating order. The overhead is judged on the median over
-  // rounds of each round's own ratio (paired); the table shows the fastest of each. The yardstick
-  // (a plain SQLite insert of the same rows, as whole processes) is ingest_vs_plain.py's.
+  // so that both meet the same load on the machine, in alternating order. The overhead is judged on
+  // the median over rounds of each round's own ratio (paired); the table shows the fastest of each.
+  // The yardstick (a plain SQLite insert of the same rows, as whole processes) is
+  // ingest_vs_plain.py's.
   IngestFigures full, bare;
   std::vector<double> daily_overhead;  // ingest seconds / ingest-without-daily seconds - 1
   for (int round = 1; round <= options.repeat; ++round) {
@@ -320,8 +321,7 @@ int main(int argc, char** argv) {
     IngestFigures f, b;
     const auto with_daily = [&] { f = ingest_in_child(full_config, dir / "full.csv", defaults); };
     const auto without_daily = [&] {
-      b = ingest_in_child(bench_config(dir, dir / "full-no-daily.db"), dir / "full.csv",
-                          no_daily);
+      b = ingest_in_child(bench_config(dir, dir / "full-no-daily.db"), dir / "full.csv", no_daily);
     };
     if (round % 2 == 1) {
       with_daily();
@@ -349,8 +349,8 @@ int main(int argc, char** argv) {
       "\nstagewell ingest benchmark: {} readings ({} sites, one a minute), batches of {}; "
       "best of {}\n",
       rows, bench::kSites, defaults.max_batch_readings, options.repeat);
-  fmt::print("{:<30}{:>9}{:>9}{:>10}{:>11}{:>11}\n", "", "rows", "seconds", "rows/s",
-             "CPU us/row", "peak RSS");
+  fmt::print("{:<30}{:>9}{:>9}{:>10}{:>11}{:>11}\n", "", "rows", "seconds", "rows/s", "CPU us/row",
+             "peak RSS");
   const auto line = [&](std::string_view what, std::int64_t n, double seconds, double cpu,
                         std::string rss) {
     const double per_second = static_cast<double>(n) / seconds;

@@ -59,8 +59,8 @@ int digits(std::string_view text, std::size_t at, std::size_t count) {
 
 // `YYYY-MM-DDTHH:MM:SSZ` as ms since the epoch.
 std::int64_t parse_time(std::string_view text) {
-  if (text.size() != 20 || text[4] != '-' || text[7] != '-' || text[10] != 'T' ||
-      text[13] != ':' || text[16] != ':' || text[19] != 'Z') {
+  if (text.size() != 20 || text[4] != '-' || text[7] != '-' || text[10] != 'T' || text[13] != ':' ||
+      text[16] != ':' || text[19] != 'Z') {
     die("not a time: " + std::string(text));
   }
   using namespace std::chrono;
@@ -97,8 +97,8 @@ int main(int argc, char** argv) {
        "CREATE TABLE readings (site INTEGER, time INTEGER, stage REAL, discharge REAL, "
        "flags INTEGER, PRIMARY KEY (site, time)) WITHOUT ROWID");
   sqlite3_stmt* insert = nullptr;
-  if (sqlite3_prepare_v2(db, "INSERT INTO readings VALUES (?, ?, ?, ?, ?)", -1, &insert,
-                         nullptr) != SQLITE_OK) {
+  if (sqlite3_prepare_v2(db, "INSERT INTO readings VALUES (?, ?, ?, ?, ?)", -1, &insert, nullptr) !=
+      SQLITE_OK) {
     die(sqlite3_errmsg(db));
   }
 

@@ -61,8 +61,7 @@ TEST_CASE("a second YAML document is refused; so is text larger than any configu
   const auto endless = stagewell::load_config("/dev/zero");
   REQUIRE_FALSE(endless.has_value());
   REQUIRE(endless.error().size() == 1);
-  CHECK(endless.error()[0].message.find("more than any configuration needs") !=
-        std::string::npos);
+  CHECK(endless.error()[0].message.find("more than any configuration needs") != std::string::npos);
 }
 
 TEST_CASE("unknown unit system") {

@@ -1,14 +1,14 @@
 // Opening a database: the schema from empty, re-opening, refusing what the program cannot use.
+#include "store/migrations.hpp"
+
 #include <doctest/doctest.h>
 
-#include <regex>
-
 #include <cstring>
+#include <regex>
 #include <vector>
 
 #include "raw_connection.hpp"
 #include "stagewell/store.hpp"
-#include "store/migrations.hpp"
 #include "store_test_support.hpp"
 
 namespace stagewell {
@@ -164,7 +164,6 @@ TEST_CASE("read-only opening needs an existing database at the current version")
   CHECK(reader->read_only());
   CHECK(reader->schema_version() == highest_migration_number());
 }
-
 
 // Migration 6 stops storing each reading's depth; the `discharge` view computes it from the
 // version's terms. Readings stored at schema 5 must come out of the view with the depth they had,

@@ -144,7 +144,7 @@ TEST_CASE("readings later than all stored are inserted in groups, and every stat
       REQUIRE_MESSAGE(inserted.has_value(), inserted.error().message);
       CHECK(inserted->outcome == InsertOutcome::stored);
       if (i == 130) {
-        CHECK(store.readings().count() == 131);          // a read sees every one so far
+        CHECK(store.readings().count() == 131);  // a read sees every one so far
         CHECK(batch->add_flags(site.key, 60'000 * 130, Flag::spike) == true);  // the last one
       }
     }
@@ -161,8 +161,9 @@ TEST_CASE("readings later than all stored are inserted in groups, and every stat
   }
   CHECK(store.readings().count() == kReadings);
   auto raw = raw_connection(dir.db());
-  CHECK(query_int(*raw, "SELECT count(*) FROM discharge WHERE stage = 0.5 + round(unix_time / 60) "
-                        "AND discharge = 2 * stage") == kReadings);
+  CHECK(query_int(*raw,
+                  "SELECT count(*) FROM discharge WHERE stage = 0.5 + round(unix_time / 60) "
+                  "AND discharge = 2 * stage") == kReadings);
   CHECK(query_int(*raw, "SELECT flags FROM readings WHERE time_ms = 60000 * 130") ==
         static_cast<std::int64_t>(Flag::spike));
 }

@@ -53,8 +53,8 @@ inline Site add_site(Store& store, std::string_view id) {
   REQUIRE_MESSAGE(key.has_value(), key.error().message);
   const std::string json = "{\"id\":\"" + std::string(id) + "\"}";
   // Depth = stage - 0.1, as reading() below says.
-  auto config =
-      store.versions().record(*key, json, 1'700'000'000'000, DepthTerms{.zero_flow = 0.1, .correction = {}});
+  auto config = store.versions().record(*key, json, 1'700'000'000'000,
+                                        DepthTerms{.zero_flow = 0.1, .correction = {}});
   REQUIRE_MESSAGE(config.has_value(), config.error().message);
   return Site{*key, *config};
 }

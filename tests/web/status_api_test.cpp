@@ -96,6 +96,21 @@ TEST_CASE("odd targets are refused with 400 and a JSON error") {
   CHECK(f.get("/" + std::string(stagewell::kMaxTargetBytes, 'a')).status == 414);
 }
 
+TEST_CASE("a query parameter given twice is refused, not one of its values chosen") {
+  Fixture f;
+  for (const char* target :
+       {"/api/sites/weir/readings?from=2026-05-01T00:00:00Z&from=2026-05-02T00:00:00Z",
+        "/api/sites/weir/daily?to=2026-05-02&from=2026-05-01&to=2026-05-03",
+        "/api/sites/weir/readings?from=2026-05-01T00:00:00Z&%66rom=x"}) {
+    CAPTURE(target);
+    const auto answer = f.get(target);
+    CHECK(answer.status == 400);
+    CHECK(json::parse(answer.body)["error"].get<std::string>().find("is given twice") !=
+          std::string::npos);
+  }
+  CHECK(f.get("/api/sites/weir/daily?from=2026-05-01&to=2026-05-03").status == 200);
+}
+
 TEST_CASE("readings carry the stored numbers, both ends of the range included") {
   Fixture f;
   const auto answer =

@@ -1,11 +1,11 @@
 // The top level of the configuration, and the two ways in: a file, or text.
+#include <fmt/format.h>
+#include <yaml-cpp/eventhandler.h>
+
 #include <cerrno>
 #include <cstring>
 #include <fstream>
 #include <sstream>
-
-#include <fmt/format.h>
-#include <yaml-cpp/eventhandler.h>
 
 #include "config/http_keys.hpp"
 #include "config/key_table.hpp"

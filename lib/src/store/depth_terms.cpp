@@ -77,9 +77,8 @@ Result<void> fill_depth_terms(sqlite::Connection& connection) {
       "(SELECT config_id FROM version_depth_terms) ORDER BY config_id");
   if (!select) return std::unexpected(select.error());
   std::vector<std::pair<std::int64_t, std::string>> missing;
-  auto read = each_row(*select, [&](const auto& s) {
-    missing.emplace_back(s.column_int64(0), s.column_text(1));
-  });
+  auto read = each_row(
+      *select, [&](const auto& s) { missing.emplace_back(s.column_int64(0), s.column_text(1)); });
   if (!read) return read;
   for (const auto& [config_id, json] : missing) {
     auto terms = parse_terms(config_id, json);

@@ -96,8 +96,7 @@ Result<sqlite::CachedStatement> readings_insert(sqlite::Connection& connection,
 }
 
 // The latest stored time of `site`, nullopt when it has none.
-Result<std::optional<std::int64_t>> latest_stored_ms(sqlite::Connection& connection,
-                                                    SiteKey site) {
+Result<std::optional<std::int64_t>> latest_stored_ms(sqlite::Connection& connection, SiteKey site) {
   auto select = connection.cached("SELECT max(time_ms) FROM readings WHERE site_key = ?1");
   if (!select) return std::unexpected(select.error());
   (*select)->bind(1, site.value);

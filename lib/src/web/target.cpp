@@ -100,6 +100,13 @@ Result<Target> parse_target(std::string_view target) {
     if (!key) return std::unexpected(key.error());
     auto value = decode(equals == std::string_view::npos ? "" : pair.substr(equals + 1), true);
     if (!value) return std::unexpected(value.error());
+    // Which of two values would be meant cannot be told: refused rather than one chosen.
+    for (const auto& [earlier, ignored] : out.query) {
+      if (earlier == *key) {
+        return fail(ErrorKind::invalid_argument,
+                    fmt::format("the query parameter \"{}\" is given twice; give it once", *key));
+      }
+    }
     out.query.emplace_back(std::move(*key), std::move(*value));
   }
   return out;

@@ -1,6 +1,7 @@
 // A request target ("/api/sites/x/readings?from=...") taken apart: path segments and query
 // parameters, percent-decoded. Refuses what could be read two ways: encoded slashes and
-// backslashes, "." and ".." segments, control characters, bad percent escapes.
+// backslashes, "." and ".." segments, control characters, bad percent escapes, a parameter given
+// twice.
 #pragma once
 
 #include <optional>
@@ -17,7 +18,7 @@ struct Target {
   std::vector<std::string> segments;  // "/api/sites" -> {"api", "sites"}; "/" -> {}
   std::vector<std::pair<std::string, std::string>> query;
 
-  // The value of parameter `name`, when given (the first, when given twice).
+  // The value of parameter `name`, when given (never twice: parse_target refuses that).
   std::optional<std::string> param(std::string_view name) const;
 };
 
