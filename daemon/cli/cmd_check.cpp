@@ -1,16 +1,38 @@
 // `stagewell check`: validate a configuration and summarise its sites.
 #include <fmt/format.h>
 
+#include <filesystem>
 #include <iostream>
 #include <memory>
 
 #include "commands.hpp"
 #include "output_format.hpp"
+#include "stagewell/store.hpp"
 
 namespace stagewell::cli {
 namespace {
 
-int run_check(const std::string& config_path) {
+// SQLite's integrity check of the configuration's database: true when it finds nothing.
+bool check_database(const std::filesystem::path& database) {
+  std::cout << fmt::format("\n  database check ({}): ", database.string()) << std::flush;
+  const auto problems = Store::check_integrity(database);
+  if (!problems) {
+    std::cout << "cannot be read\n";
+    std::cerr << database.string() << ": " << problems.error().message << '\n';
+    return false;
+  }
+  if (problems->empty()) {
+    std::cout << "sound (SQLite's integrity check finds nothing)\n";
+    return true;
+  }
+  std::cout << problems->size() << " problem(s) found by SQLite's integrity check\n";
+  for (const auto& problem : *problems) std::cout << "    " << problem << '\n';
+  std::cout << "  The file is damaged: stop the service, keep a copy of the file, and restore the "
+               "latest backup (README, \"A damaged database\").\n";
+  return false;
+}
+
+int run_check(const std::string& config_path, bool database) {
   const auto config = load_config_or_report(config_path);
   if (!config) return kInvalidInput;
   const auto system = config->units;
@@ -40,6 +62,7 @@ int run_check(const std::string& config_path) {
         units::length_symbol(system), format_number(site.stage_for_depth(top, system)),
         units::symbol(site.stage.units), format_number(capacity), units::discharge_symbol(system));
   }
+  if (database && !check_database(config->database)) return kInvalidInput;
   return kOk;
 }
 
@@ -49,10 +72,17 @@ void add_check_command(CLI::App& program, Action& chosen) {
   auto* command = program.add_subcommand(
       "check", "Validate a configuration, report every error, and summarise its sites");
   auto path = std::make_shared<std::string>();
+  auto database = std::make_shared<bool>(false);
   add_config_option(*command, *path);
+  command->add_flag("--database", *database,
+                    "Also run SQLite's integrity check on the configuration's database (read only; "
+                    "a few seconds per 100 MB)");
   command->footer(
-      "Exit status: 0 when valid, 1 when the configuration has errors, 2 on usage errors.");
-  command->final_callback([&chosen, path] { chosen = [path] { return run_check(*path); }; });
+      "Exit status: 0 when valid (and, with --database, the database sound), 1 when the "
+      "configuration has errors or the database is damaged or unreadable, 2 on usage errors.");
+  command->final_callback([&chosen, path, database] {
+    chosen = [path, database] { return run_check(*path, *database); };
+  });
 }
 
 }  // namespace stagewell::cli

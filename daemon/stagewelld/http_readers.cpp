@@ -1,6 +1,7 @@
 #include "http_readers.hpp"
 
 #include <fmt/format.h>
+#include <spdlog/spdlog.h>
 
 #include <boost/asio/post.hpp>
 
@@ -53,7 +54,14 @@ void HttpReaders::answer(HttpQuestion question, std::function<void(HttpAnswer)> 
     HttpAnswer answer =
         api ? api->answer(question.method, question.target, question.accept, system_now_ms())
             : json_error(503, fmt::format("the database cannot be read now: {}", error));
-    if (api) give_back(std::move(api));
+    if (api) {
+      // A damaged file is said once in the log, with what to do; the client gets its 500.
+      if (const auto failure = api->take_store_failure();
+          failure && failure->kind == ErrorKind::damaged && !damage_logged_.exchange(true)) {
+        spdlog::error("http: {}", failure->message);
+      }
+      give_back(std::move(api));
+    }
     asio::post(loop_, [done = std::move(done), answer = std::move(answer)]() mutable {
       done(std::move(answer));
     });

@@ -9,6 +9,7 @@
 // clang-format off
 #include <utility>  // before Asio: Boost 1.74's headers need it under C++20 and later
 // clang-format on
+#include <atomic>
 #include <boost/asio/io_context.hpp>
 #include <boost/asio/thread_pool.hpp>
 #include <functional>
@@ -48,6 +49,7 @@ class HttpReaders {
   LiveFiguresSource live_;
   boost::asio::thread_pool pool_;
   std::mutex mutex_;
+  std::atomic<bool> damage_logged_{false};        // a damaged database file was logged (once)
   std::vector<std::unique_ptr<StatusApi>> idle_;  // guarded by mutex_
 };
 

@@ -85,7 +85,7 @@ void Service::opened(const Config& config, Result<int> schema_version) {
   if (stopping_) return;  // the stop has its own end
   if (!schema_version) {
     spdlog::error("{}", schema_version.error().message);
-    exit_code_ = 1;
+    exit_code_ = schema_version.error().kind == ErrorKind::damaged ? kExitDatabaseDamaged : 1;
     shut_down();
     return;
   }

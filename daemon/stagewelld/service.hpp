@@ -36,10 +36,14 @@ class Service {
   Service(boost::asio::io_context& io, std::string config_path, Logging& logging);
   ~Service();
 
+  // Exit status of a start refused because the database file is damaged: the systemd unit does
+  // not restart on it (RestartPreventExitStatus), since no restart can mend the file.
+  static constexpr int kExitDatabaseDamaged = 3;
+
   // Loads the configuration, takes the database's lock and starts the writer, which opens the
   // database; the network side opens once it has. Returns false (after logging why) when the
   // configuration or the lock cannot be had; a database that cannot be opened ends the loop later
-  // with exit_code() 1.
+  // with exit_code() 1, or kExitDatabaseDamaged when the file is damaged.
   bool start();
   int exit_code() const { return exit_code_; }
 

@@ -122,6 +122,7 @@ class WriterCore {
   bool recompute_posted_ = false;
   bool commit_timer_armed_ = false;
   bool stopping_ = false;
+  bool damage_logged_ = false;  // the database file was found damaged, and the log says so
 };
 
 // ---- opening and closing ----------------------------------------------------------------------
@@ -356,6 +357,12 @@ void WriterCore::recover(const Error& error) {
     spdlog::info(
         "database: stopped waiting for the lock; what was not committed is read again "
         "at the next start");
+  } else if (error.kind == ErrorKind::damaged) {
+    // A damaged file stays damaged: said once, with what to do, not at every retry.
+    if (!damage_logged_) {
+      spdlog::error("store: {}; nothing is stored until it is restored", error.message);
+      damage_logged_ = true;
+    }
   } else {
     spdlog::error("store: {}; the batch is dropped and its input will be read again",
                   error.message);

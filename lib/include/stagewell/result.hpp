@@ -17,6 +17,7 @@ enum class ErrorKind {
   io,                // the operating system said no
   database,          // SQLite said no
   cancelled,         // a wait for the database was stopped on request (StoreOptions, LockWait)
+  damaged,           // the database file is damaged: SQLite found it malformed, or not a database
 };
 
 struct Error {

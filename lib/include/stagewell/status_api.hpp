@@ -13,6 +13,7 @@
 #include <cstdint>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <utility>
@@ -63,6 +64,9 @@ class StatusApi {
   // current time (ms since epoch, UTC). Never throws; a failed query is a 500 with a JSON error.
   HttpAnswer answer(std::string_view method, std::string_view target, std::string_view accept,
                     std::int64_t now_ms);
+  // Why the database could not be read for the last failed answer (a 500), once; nullopt when
+  // nothing failed since the last call. The caller decides what is worth logging.
+  std::optional<Error> take_store_failure();
 
   struct State;
 

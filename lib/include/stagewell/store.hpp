@@ -27,7 +27,9 @@
 #include <filesystem>
 #include <memory>
 #include <optional>
+#include <string>
 #include <string_view>
+#include <vector>
 
 #include "stagewell/alarm_table.hpp"
 #include "stagewell/daily_table.hpp"
@@ -61,6 +63,12 @@ class Store {
   // mode a reader needs the -shm file or write access to the directory (README, "The database").
   static Result<Store> open_read_only(const std::filesystem::path& path,
                                       const StoreOptions& options = {});
+
+  // SQLite's own check of an existing database file (PRAGMA integrity_check), read only, without
+  // needing the file to be readable as a stagewell database: what it finds, one line each; empty
+  // when the file is sound. Fails (not_found) without a file, (damaged) when SQLite cannot even
+  // read it as a database.
+  static Result<std::vector<std::string>> check_integrity(const std::filesystem::path& path);
 
   Store(Store&&) noexcept;
   Store& operator=(Store&&) noexcept;

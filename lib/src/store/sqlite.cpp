@@ -17,6 +17,12 @@ std::string excerpt(std::string_view sql) {
   return out;
 }
 
+// SQLITE_CORRUPT (a malformed page, index or record) and SQLITE_NOTADB (a file that is not, or no
+// longer, a database): the file itself is damaged, and no retry can help.
+bool is_damage(int code) {
+  return (code & 0xff) == SQLITE_CORRUPT || (code & 0xff) == SQLITE_NOTADB;
+}
+
 }  // namespace
 
 Error to_error(int code, sqlite3* db, std::string_view doing, bool cancelled) {
@@ -29,6 +35,16 @@ Error to_error(int code, sqlite3* db, std::string_view doing, bool cancelled) {
   // After an injected fault (or a later call) the connection's message belongs to another code.
   const bool own_message = db != nullptr && sqlite3_extended_errcode(db) == code;
   const char* text = own_message ? sqlite3_errmsg(db) : sqlite3_errstr(code);
+  if (is_damage(code)) {
+    const char* file = db != nullptr ? sqlite3_db_filename(db, "main") : nullptr;
+    return Error{
+        ErrorKind::damaged,
+        fmt::format("the database file {} is damaged (SQLite, while {}: {}, code {}); "
+                    "stop the service, keep a copy of the file, and restore the latest "
+                    "backup (README, \"A damaged database\"); `stagewell check "
+                    "--database` lists what SQLite finds",
+                    file != nullptr && *file != '\0' ? file : "(unknown)", doing, text, code)};
+  }
   return Error{ErrorKind::database,
                fmt::format("SQLite error while {}: {} (code {})", doing, text, code)};
 }

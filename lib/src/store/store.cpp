@@ -8,6 +8,7 @@
 
 #include "store/day_readings_scan.hpp"
 #include "store/migrations.hpp"
+#include "store/rows.hpp"
 #include "store/store_core.hpp"
 
 namespace stagewell {
@@ -107,6 +108,24 @@ Result<Store> Store::open_read_only(const std::filesystem::path& path,
   }
   if (auto ok = store_detail::check_schema(**connection); !ok) return std::unexpected(ok.error());
   return Store(make_core(std::move(*connection), options));
+}
+
+Result<std::vector<std::string>> Store::check_integrity(const std::filesystem::path& path) {
+  std::error_code ec;
+  if (!std::filesystem::is_regular_file(path, ec)) {
+    return fail(ErrorKind::not_found, fmt::format("no database at {}", path.string()));
+  }
+  auto connection = Connection::open(path, Connection::Access::read_only);
+  if (!connection) return std::unexpected(connection.error());
+  auto check = (*connection)->prepare("PRAGMA integrity_check");
+  if (!check) return std::unexpected(check.error());
+  std::vector<std::string> problems;
+  auto read = store_detail::each_row(*check, [&](const auto& s) {
+    std::string line = s.column_text(0);
+    if (line != "ok") problems.push_back(std::move(line));
+  });
+  if (!read) return std::unexpected(read.error());
+  return problems;
 }
 
 int Store::schema_version() const { return core_->schema_version; }

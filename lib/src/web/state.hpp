@@ -21,6 +21,7 @@ struct StatusApi::State {
   TimeZone zone;  // of the daily figures: "today" is the local day here
   LiveFiguresSource live;
   std::map<std::string, SiteKey, std::less<>> site_keys;  // found on first use
+  std::optional<Error> store_failure;  // the last failed answer's (take_store_failure)
 };
 
 namespace web_detail {

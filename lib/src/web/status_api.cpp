@@ -128,10 +128,15 @@ HttpAnswer StatusApi::answer(std::string_view method, std::string_view target,
   }
   if (!result) {
     state_->site_keys.clear();
+    state_->store_failure = result.error();
     return json_error(500,
                       fmt::format("the database could not be read: {}", result.error().message));
   }
   return *result;
+}
+
+std::optional<Error> StatusApi::take_store_failure() {
+  return std::exchange(state_->store_failure, std::nullopt);
 }
 
 }  // namespace stagewell
