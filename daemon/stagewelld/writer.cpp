@@ -24,8 +24,10 @@ namespace asio = boost::asio;
 constexpr std::size_t kBytesPerPoll = 256 * 1024;
 // How often sources are polled for new data when none was waiting.
 constexpr auto kIdlePoll = std::chrono::milliseconds(200);
-// Pause after a failure of the store before reading again.
+// Pause after a failure of the store before reading again: doubled after each failure in a row,
+// up to the bound (a full disk is not freed in a second; each attempt reads input again).
 constexpr auto kRecoveryPause = std::chrono::seconds(1);
+constexpr auto kRecoveryPauseMax = std::chrono::seconds(8);
 // How often the alarms judged by the clock (stale sensors) are evaluated. A stale alarm is raised
 // at most this long after its `after` has passed.
 constexpr auto kAlarmTick = std::chrono::seconds(10);
@@ -103,6 +105,7 @@ class WriterCore {
   void post_recompute_step();
   void recompute_step();
   void after_commit();
+  void store_works();  // a commit succeeded: ends a run of failures, saying so once
   bool usable() const { return ingestor_ && !stopping_; }
 
   Writer& owner_;
@@ -123,6 +126,10 @@ class WriterCore {
   bool commit_timer_armed_ = false;
   bool stopping_ = false;
   bool damage_logged_ = false;  // the database file was found damaged, and the log says so
+  // While the store fails: since when (0: it does not), attempts, and the pause before the next.
+  std::int64_t failing_since_ms_ = 0;
+  std::int64_t failed_attempts_ = 0;
+  std::chrono::steady_clock::duration recovery_pause_ = kRecoveryPause;
 };
 
 // ---- opening and closing ----------------------------------------------------------------------
@@ -166,7 +173,9 @@ Result<int> WriterCore::open(const Config& config) {
       *ingestor_, TcpConnections::Hooks{[this] { commit_if_due(); }, [this] { commit(); },
                                         [this](const Error& error) { recover(error); }});
   ingestor_->add_commit_observer([this](bool committed) {
-    if (committed) after_commit();
+    if (!committed) return;
+    store_works();
+    after_commit();
   });
   const auto& loaded = ingestor_->config();
   for (const auto& source : sources_) spdlog::info("source: {}", source->label);
@@ -331,6 +340,15 @@ void WriterCore::arm_commit_timer() {
       });
 }
 
+void WriterCore::store_works() {
+  if (failing_since_ms_ == 0) return;
+  spdlog::info("store: writing works again after {:.1f} s and {} failed attempt(s)",
+               static_cast<double>(system_now_ms() - failing_since_ms_) / 1000.0, failed_attempts_);
+  failing_since_ms_ = 0;
+  failed_attempts_ = 0;
+  recovery_pause_ = kRecoveryPause;
+}
+
 void WriterCore::after_commit() {
   if (!ingestor_) return;
   {
@@ -338,6 +356,8 @@ void WriterCore::after_commit() {
     std::lock_guard lock(board.mutex);
     board.figures.counts = carried_;
     board.figures.counts.add(ingestor_->counts());
+    board.figures.store_failing_since_ms = failing_since_ms_;
+    board.figures.store_failed_attempts = failed_attempts_;
   }
   const auto now = ingestor_->now_ms();
   if (now - last_report_ms_ >= kReportEveryMs && ingestor_->counts().commits != reported_.commits) {
@@ -363,9 +383,23 @@ void WriterCore::recover(const Error& error) {
       spdlog::error("store: {}; nothing is stored until it is restored", error.message);
       damage_logged_ = true;
     }
+  } else if (failing_since_ms_ == 0) {
+    // The first failure is logged; the retries after it only when it ends (after_commit).
+    spdlog::error(
+        "store: {}; the batch is dropped and its input will be read again, in {} s, then at "
+        "growing intervals up to {} s until writing works again",
+        error.message, std::chrono::duration_cast<std::chrono::seconds>(kRecoveryPause).count(),
+        std::chrono::duration_cast<std::chrono::seconds>(kRecoveryPauseMax).count());
   } else {
-    spdlog::error("store: {}; the batch is dropped and its input will be read again",
-                  error.message);
+    spdlog::debug("store: still failing ({} attempts): {}", failed_attempts_ + 1, error.message);
+  }
+  if (!cancelled) {
+    if (failing_since_ms_ == 0) failing_since_ms_ = system_now_ms();
+    ++failed_attempts_;
+    auto& board = *owner_.live_;
+    std::lock_guard lock(board.mutex);
+    board.figures.store_failing_since_ms = failing_since_ms_;
+    board.figures.store_failed_attempts = failed_attempts_;
   }
   if (auto reset = ingestor_->reset(); !reset) {
     spdlog::error("store: {}", reset.error().message);
@@ -375,7 +409,9 @@ void WriterCore::recover(const Error& error) {
     stopping_ = true;  // a stop asked for the cancel: nothing more is read (it follows)
     return;
   }
-  poll_timer_.expires_after(kRecoveryPause);
+  poll_timer_.expires_after(recovery_pause_);
+  recovery_pause_ =
+      std::min(recovery_pause_ * 2, std::chrono::steady_clock::duration(kRecoveryPauseMax));
   poll_timer_.async_wait([this, generation = generation_](const boost::system::error_code& error) {
     if (!error && generation == generation_) poll();
   });

@@ -202,6 +202,15 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
     }
   }
 
+  out.family("stagewell_store_failing", "gauge",
+             "1 while the database cannot be written (a full disk, a damaged file), else 0.");
+  out.sample("", live.store_failing_since_ms != 0 ? 1.0 : 0.0);
+  out.family("stagewell_store_failing_seconds", "gauge",
+             "How long the database has not been writable, 0 while it is.", "seconds");
+  out.sample("", live.store_failing_since_ms != 0
+                     ? static_cast<double>(now_ms - live.store_failing_since_ms) / 1000.0
+                     : 0.0);
+
   out.family("stagewell_start_time_seconds", "gauge", "When the service started (Unix time).",
              "seconds");
   out.sample("", static_cast<double>(live.started_ms) / 1000.0);
