@@ -26,6 +26,12 @@ constexpr std::string_view kBusyAnswer =
     "charset=utf-8\r\nRetry-After: 5\r\nConnection: close\r\nContent-Length: 56\r\n\r\n"
     "{\"error\":\"too many connections at once; try again soon\"}";
 
+// RFC 6585 4 (429 Too Many Requests): one address has as many connections as it may.
+constexpr std::string_view kTooManyAnswer =
+    "HTTP/1.1 429 Too Many Requests\r\nServer: stagewelld\r\nContent-Type: application/json; "
+    "charset=utf-8\r\nRetry-After: 5\r\nConnection: close\r\nContent-Length: 68\r\n\r\n"
+    "{\"error\":\"too many connections from your address; close some first\"}";
+
 }  // namespace
 
 HttpServer::HttpServer(asio::io_context& io, const HttpSpec& spec,
@@ -80,6 +86,31 @@ void HttpServer::stop() {
 
 void HttpServer::remove(const HttpSession* session) { sessions_.erase(session); }
 
+bool HttpServer::shed_longest_idle() {
+  std::shared_ptr<HttpSession> longest;
+  for (const auto& [key, weak] : sessions_) {
+    const auto session = weak.lock();
+    if (!session || !session->idle_since()) continue;
+    if (!longest || *session->idle_since() < *longest->idle_since()) longest = session;
+  }
+  if (!longest) return false;
+  // A connection waiting for a request that has not begun loses nothing: its client opens
+  // another when it has something to ask.
+  spdlog::debug("http: at {} connections, closing the one idle longest ({})", sessions_.size(),
+                longest->address().to_string());
+  sessions_.erase(longest.get());
+  longest->close();
+  return true;
+}
+
+void HttpServer::answer_and_close(tcp::socket& socket, std::string_view answer) {
+  error_code ignored;
+  socket.non_blocking(true, ignored);
+  socket.write_some(asio::buffer(answer), ignored);
+  socket.shutdown(tcp::socket::shutdown_both, ignored);
+  socket.close(ignored);
+}
+
 void HttpServer::accept() {
   acceptor_.async_accept([self = shared_from_this()](const error_code& error, tcp::socket socket) {
     self->on_accept(error, std::move(socket));
@@ -96,18 +127,32 @@ void HttpServer::on_accept(const error_code& error, tcp::socket socket) {
     });
     return;
   }
-  if (sessions_.size() >= static_cast<std::size_t>(spec_.max_connections)) {
-    // At the cap: one short answer, written without waiting (it fits any socket buffer), then
-    // closed. Nothing is kept for a refused connection.
+  error_code ignored;
+  const auto address = socket.remote_endpoint(ignored).address();
+  std::size_t from_address = 0;
+  for (const auto& [key, weak] : sessions_) {
+    if (const auto session = weak.lock(); session && session->address() == address) {
+      ++from_address;
+    }
+  }
+  if (from_address >= static_cast<std::size_t>(spec_.max_connections_per_address)) {
+    // One client may not hold the page from the others, however many connections it opens.
+    if (refused_++ % kRefusedLogEvery == 0) {
+      spdlog::warn(
+          "http: {} has {} connections open, the most allowed from one address; "
+          "refusing ({} refused so far)",
+          address.to_string(), from_address, refused_);
+    }
+    answer_and_close(socket, kTooManyAnswer);
+  } else if (sessions_.size() >= static_cast<std::size_t>(spec_.max_connections) &&
+             !shed_longest_idle()) {
+    // At the cap with every connection busy: one short answer, written without waiting (it fits
+    // any socket buffer), then closed. Nothing is kept for a refused connection.
     if (refused_++ % kRefusedLogEvery == 0) {
       spdlog::warn("http: {} connections open, the most allowed; refusing ({} refused so far)",
                    sessions_.size(), refused_);
     }
-    error_code ignored;
-    socket.non_blocking(true, ignored);
-    socket.write_some(asio::buffer(kBusyAnswer), ignored);
-    socket.shutdown(tcp::socket::shutdown_both, ignored);
-    socket.close(ignored);
+    answer_and_close(socket, kBusyAnswer);
   } else {
     auto session = std::make_shared<HttpSession>(std::move(socket), weak_from_this());
     sessions_.emplace(session.get(), session);

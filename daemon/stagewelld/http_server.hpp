@@ -48,6 +48,9 @@ class HttpServer : public std::enable_shared_from_this<HttpServer> {
              std::unique_ptr<HttpReaders> readers);
   void accept();
   void on_accept(const boost::system::error_code& error, boost::asio::ip::tcp::socket socket);
+  // Closes the connection that has waited longest for a request to begin; false when none waits.
+  bool shed_longest_idle();
+  static void answer_and_close(boost::asio::ip::tcp::socket& socket, std::string_view answer);
 
   boost::asio::io_context& io_;
   HttpSpec spec_;

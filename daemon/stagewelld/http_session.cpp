@@ -22,14 +22,17 @@ using boost::system::error_code;
 // that the parser's own limits (431, 413) are what a client meets.
 constexpr std::size_t kBufferBytes = 2 * (kMaxHeaderBytes + kMaxBodyBytes);
 
-std::chrono::milliseconds timeout_of(const HttpSpec& spec) {
-  return std::chrono::milliseconds(static_cast<std::int64_t>(spec.request_timeout_s * 1000.0));
+std::chrono::milliseconds timeout_of(double seconds) {
+  return std::chrono::milliseconds(static_cast<std::int64_t>(seconds * 1000.0));
 }
 
 }  // namespace
 
 HttpSession::HttpSession(boost::asio::ip::tcp::socket socket, std::weak_ptr<HttpServer> server)
-    : stream_(std::move(socket)), server_(std::move(server)), buffer_(kBufferBytes) {}
+    : stream_(std::move(socket)), server_(std::move(server)), buffer_(kBufferBytes) {
+  error_code ignored;
+  address_ = stream_.socket().remote_endpoint(ignored).address();
+}
 
 HttpSession::~HttpSession() {
   if (auto server = server_.lock()) server->remove(this);
@@ -49,9 +52,26 @@ void HttpSession::read() {
   parser_.emplace();
   parser_->header_limit(kMaxHeaderBytes);
   parser_->body_limit(kMaxBodyBytes);
-  // One deadline for the whole request (not per byte): a client that trickles its header is
-  // closed at the deadline however slowly it sends. Between requests it is the idle timeout.
-  stream_.expires_after(timeout_of(server->spec()));
+  if (buffer_.size() > 0) return on_first_bytes({}, 0);  // the next request came with the last
+  // Idle: the request may take request_timeout to begin. Its first bytes start the header's own,
+  // shorter deadline (on_first_bytes).
+  idle_since_ = std::chrono::steady_clock::now();
+  stream_.expires_after(timeout_of(server->spec().request_timeout_s));
+  stream_.async_read_some(buffer_.prepare(kMaxHeaderBytes),
+                          [self = shared_from_this()](const error_code& error, std::size_t bytes) {
+                            self->on_first_bytes(error, bytes);
+                          });
+}
+
+void HttpSession::on_first_bytes(const error_code& error, std::size_t bytes) {
+  idle_since_.reset();
+  if (error) return on_read(error);
+  buffer_.commit(bytes);
+  auto server = server_.lock();
+  if (!server) return close();
+  // One deadline for the whole header (not per byte): a client that trickles it, or sends half
+  // and stops, is closed at the deadline however slowly it sends.
+  stream_.expires_after(timeout_of(server->spec().header_timeout_s));
   http::async_read(
       stream_, buffer_, *parser_,
       [self = shared_from_this()](const error_code& error, std::size_t) { self->on_read(error); });
@@ -126,7 +146,7 @@ void HttpSession::write(bool keep_alive) {
   if (head_) response_.body().clear();  // the Content-Length of the GET answer stays
   auto server = server_.lock();
   if (!server) return close();
-  stream_.expires_after(timeout_of(server->spec()));
+  stream_.expires_after(timeout_of(server->spec().request_timeout_s));
   http::async_write(stream_, response_,
                     [self = shared_from_this(), keep_alive](const error_code& error, std::size_t) {
                       if (error || !keep_alive) return self->close();

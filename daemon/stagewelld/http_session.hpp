@@ -12,6 +12,7 @@
 #include <boost/beast/http/message.hpp>
 #include <boost/beast/http/parser.hpp>
 #include <boost/beast/http/string_body.hpp>
+#include <chrono>
 #include <memory>
 #include <optional>
 
@@ -33,8 +34,15 @@ class HttpSession : public std::enable_shared_from_this<HttpSession> {
   void start();
   void close();
 
+  // The client's address, as the per-address limit counts it.
+  const boost::asio::ip::address& address() const { return address_; }
+  // While it waits for a request to begin (new, or idle between requests): since when; empty
+  // while a request is read, answered or written. The server sheds the longest idle first.
+  std::optional<std::chrono::steady_clock::time_point> idle_since() const { return idle_since_; }
+
  private:
   void read();
+  void on_first_bytes(const boost::system::error_code& error, std::size_t bytes);
   void on_read(const boost::system::error_code& error);
   void answer();
   void respond(HttpAnswer answer);
@@ -46,6 +54,8 @@ class HttpSession : public std::enable_shared_from_this<HttpSession> {
   boost::beast::flat_buffer buffer_;
   std::optional<boost::beast::http::request_parser<boost::beast::http::string_body>> parser_;
   boost::beast::http::response<boost::beast::http::string_body> response_;
+  boost::asio::ip::address address_;
+  std::optional<std::chrono::steady_clock::time_point> idle_since_;
   bool head_ = false;  // the request was HEAD: send the header fields only
   bool keep_alive_ = false;
   unsigned version_ = 11;

@@ -177,11 +177,14 @@ struct DailySpec {
 // `http:` the status page, JSON API and metrics served by the service (README, "HTTP: the status
 // page, API and metrics"). Read-only: GET and HEAD. Absent: no server.
 struct HttpSpec {
-  std::string address = "127.0.0.1";  // IP address to listen on, as written (IPv4 or IPv6)
-  int port = 8207;                    // TCP port, 1 to 65535
-  bool loopback = true;               // 127.0.0.0/8 or ::1; otherwise a warning is logged
-  int max_connections = 32;           // connections at once; more are answered 503 and closed
-  double request_timeout_s = 10.0;    // a request's header must arrive whole within this; idle
+  std::string address = "127.0.0.1";    // IP address to listen on, as written (IPv4 or IPv6)
+  int port = 8207;                      // TCP port, 1 to 65535
+  bool loopback = true;                 // 127.0.0.0/8 or ::1; otherwise a warning is logged
+  int max_connections = 32;             // connections at once; at the cap the one idle longest
+                                        // is closed for a new one, or (none idle) 503
+  int max_connections_per_address = 8;  // from one client address at once; more: 429
+  double request_timeout_s = 10.0;      // idle: a connection waits this long for a request to begin
+  double header_timeout_s = 2.0;        // begun: its header must arrive whole within this
 };
 
 struct Config {
