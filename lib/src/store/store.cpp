@@ -3,7 +3,12 @@
 #include "stagewell/store.hpp"
 
 #include <fmt/format.h>
+#include <unistd.h>
 
+#include <cerrno>
+#include <cstring>
+#include <optional>
+#include <string>
 #include <system_error>
 
 #include "store/day_readings_scan.hpp"
@@ -67,6 +72,38 @@ std::unique_ptr<Core> make_core(std::unique_ptr<Connection> connection,
   return core;
 }
 
+// SQLite says only "unable to open database file" (or "attempt to write a readonly database")
+// when the file or its directory cannot be written: the service needs to create the database and,
+// beside it, its -wal and -shm files. Says which, and why (access(2): EACCES, EROFS...); `error`
+// unchanged when both can be written or the failure is of another kind.
+Error explain_unwritable(const std::filesystem::path& path, const std::filesystem::path& directory,
+                         Error error) {
+  if (error.kind != ErrorKind::database) return error;
+  const auto unwritable = [](const std::filesystem::path& p) -> std::optional<std::string> {
+    if (::access(p.c_str(), W_OK) == 0) return std::nullopt;
+    return std::string(std::strerror(errno));
+  };
+  std::error_code ec;
+  const bool exists = std::filesystem::exists(path, ec);
+  if (exists) {
+    if (const auto why = unwritable(path)) {
+      return Error{ErrorKind::io,
+                   fmt::format("cannot write the database {}: {}; the service's user needs to "
+                               "write it ({})",
+                               path.string(), *why, error.message)};
+    }
+  }
+  if (const auto why = unwritable(directory)) {
+    return Error{ErrorKind::io,
+                 fmt::format("cannot {} the database {}: the directory {} is not writable ({}); "
+                             "the service's user must be able to create files there: the "
+                             "database and, beside it, its -wal and -shm files ({})",
+                             exists ? "write" : "create", path.string(), directory.string(), *why,
+                             error.message)};
+  }
+  return error;
+}
+
 }  // namespace
 
 Store::Store(std::unique_ptr<Core> core) : core_(std::move(core)) {}
@@ -85,9 +122,13 @@ Result<Store> Store::open(const std::filesystem::path& path, const StoreOptions&
                             path.string(), directory.string()));
   }
   auto connection = connect(path, Connection::Access::read_write_create, options);
-  if (!connection) return std::unexpected(connection.error());
-  if (auto ok = configure_writer(**connection); !ok) return std::unexpected(ok.error());
-  if (auto ok = store_detail::migrate(**connection); !ok) return std::unexpected(ok.error());
+  if (!connection) return std::unexpected(explain_unwritable(path, directory, connection.error()));
+  if (auto ok = configure_writer(**connection); !ok) {
+    return std::unexpected(explain_unwritable(path, directory, ok.error()));
+  }
+  if (auto ok = store_detail::migrate(**connection); !ok) {
+    return std::unexpected(explain_unwritable(path, directory, ok.error()));
+  }
   return Store(make_core(std::move(*connection), options));
 }
 
