@@ -10,7 +10,6 @@ every reading stored once, the file moved to done/.
 """
 import os
 import subprocess
-import sys
 import tempfile
 
 import daemon_support as ds
@@ -56,18 +55,8 @@ def main():
     args = ds.parse_args()
     daemon_program, _ = ds.programs(args)
     with tempfile.TemporaryDirectory(prefix="stagewell-e2e-") as root:
-        dbfs = os.path.join(root, "dbfs")
-        os.makedirs(dbfs)
-        mounted = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=448k", "tmpfs", dbfs],
-                                 capture_output=True, text=True)
-        if mounted.returncode != 0:
-            print("SKIPPED: cannot mount a small tmpfs here (needs root, or a container that "
-                  f"allows mounts): {mounted.stderr.strip()}")
-            sys.exit(77)
-        try:
+        with ds.tmpfs(os.path.join(root, "dbfs"), "size=448k") as dbfs:
             run(daemon_program, root, dbfs)
-        finally:
-            subprocess.run(["umount", dbfs], capture_output=True)
     ds.exit_with(R)
 
 

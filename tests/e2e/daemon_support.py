@@ -6,6 +6,7 @@ a file, the process) with a deadline; nothing sleeps a fixed time to "let the da
 The daemon is started with its stderr in a file, and always killed in a `finally`.
 """
 import argparse
+import contextlib
 import math
 import os
 import signal
@@ -289,3 +290,26 @@ def worst_discharge_error(db_path, shape, n, slope):
 
 def exit_with(results):
     sys.exit(results.finish())
+
+
+# ---- a file system of its own -----------------------------------------------------------------
+
+SKIPPED = 77  # ctest's SKIP_RETURN_CODE for the script tests (tests/CMakeLists.txt)
+
+
+@contextlib.contextmanager
+def tmpfs(path, options):
+    """A tmpfs mounted at `path` (`options` as for mount -o: "size=448k", "ro,size=4m") for the
+    block, unmounted after. Where mounting is not permitted (not root, or a container that
+    forbids it) the test is skipped: the reason printed, exit status SKIPPED."""
+    os.makedirs(path, exist_ok=True)
+    mounted = subprocess.run(["mount", "-t", "tmpfs", "-o", options, "tmpfs", path],
+                             capture_output=True, text=True)
+    if mounted.returncode != 0:
+        print("SKIPPED: cannot mount a tmpfs here (needs root, or a container that allows "
+              f"mounts): {mounted.stderr.strip()}")
+        sys.exit(SKIPPED)
+    try:
+        yield path
+    finally:
+        subprocess.run(["umount", path], capture_output=True)
