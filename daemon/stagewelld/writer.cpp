@@ -357,7 +357,6 @@ void WriterCore::after_commit() {
     board.figures.counts = carried_;
     board.figures.counts.add(ingestor_->counts());
     board.figures.store_failing_since_ms = failing_since_ms_;
-    board.figures.store_failed_attempts = failed_attempts_;
   }
   const auto now = ingestor_->now_ms();
   if (now - last_report_ms_ >= kReportEveryMs && ingestor_->counts().commits != reported_.commits) {
@@ -384,7 +383,7 @@ void WriterCore::recover(const Error& error) {
       damage_logged_ = true;
     }
   } else if (failing_since_ms_ == 0) {
-    // The first failure is logged; the retries after it only when it ends (after_commit).
+    // The first failure is logged; the retries after it only when it ends (store_works).
     spdlog::error(
         "store: {}; the batch is dropped and its input will be read again, in {} s, then at "
         "growing intervals up to {} s until writing works again",
@@ -399,7 +398,6 @@ void WriterCore::recover(const Error& error) {
     auto& board = *owner_.live_;
     std::lock_guard lock(board.mutex);
     board.figures.store_failing_since_ms = failing_since_ms_;
-    board.figures.store_failed_attempts = failed_attempts_;
   }
   if (auto reset = ingestor_->reset(); !reset) {
     spdlog::error("store: {}", reset.error().message);

@@ -39,9 +39,8 @@ struct LiveFigures {
   IngestCounts counts;
   std::int64_t started_ms = 0;  // when the service started (ms since epoch, UTC)
   // While the database cannot be written (a full disk, a damaged file): since when (ms since
-  // epoch, UTC), and the failed attempts so far; 0 when writing works.
+  // epoch, UTC); 0 when writing works.
   std::int64_t store_failing_since_ms = 0;
-  std::int64_t store_failed_attempts = 0;
 };
 using LiveFiguresSource = std::function<LiveFigures()>;
 

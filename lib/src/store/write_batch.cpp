@@ -35,6 +35,9 @@ Result<void> check_finite(const StoredReading& reading) {
                           reading.time_ms));
 }
 
+// The columns an INSERT of a reading binds, from parameter `first` on (bind_reading).
+constexpr std::size_t kReadingColumns = 6;
+
 void bind_reading(sqlite::Statement& s, int first, const StoredReading& reading) {
   s.bind(first, reading.site.value);
   s.bind(first + 1, reading.time_ms);
@@ -150,18 +153,17 @@ Result<void> store_detail::Core::write() {
   // A failed statement leaves the readings it did not write held: they are tried again before
   // the next statement, so that the batch stays whole whatever its caller then decides.
   auto& rows = held_readings;
-  std::size_t written = 0;
   std::size_t found_stored = 0;
   if (rows.size() == kReadingsPerInsert) {
     auto insert = readings_insert(*connection, insert_readings);
     if (!insert) return std::unexpected(insert.error());
     for (std::size_t i = 0; i < rows.size(); ++i) {
-      bind_reading(**insert, static_cast<int>(6 * i + 1), rows[i]);
+      bind_reading(**insert, static_cast<int>(kReadingColumns * i + 1), rows[i]);
     }
     if (auto done = (*insert)->run(); !done) return std::unexpected(done.error());
-    written = rows.size();
     found_stored = rows.size() - static_cast<std::size_t>(connection->changes());
   } else {
+    std::size_t written = 0;
     for (const auto& row : rows) {
       auto inserted = stagewell::insert_reading(*connection, insert_reading, row);
       if (!inserted) {
