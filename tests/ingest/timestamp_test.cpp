@@ -155,5 +155,19 @@ TEST_CASE("formatting milliseconds as RFC 3339 UTC (python datetime + timedelta)
   CHECK(format_timestamp_utc(1772345700000, Millis::always) == "2026-03-01T06:15:00.000Z");
 }
 
+TEST_CASE("an offset cannot carry a time out of the years RFC 3339 text can write (found by fuzzing)") {
+  // RFC 3339, section 5.6: date-fullyear = 4DIGIT. Python: datetime(9999, 12, 31, 23, 59, 59,
+  // 999000, tzinfo=timezone(-timedelta(hours=23, minutes=59))) is year 10000 in UTC.
+  CHECK(error_of("9999-12-31T23:59:59.999-23:59").find("outside years 0000-9999") !=
+        std::string::npos);
+  CHECK(error_of("0000-01-01T00:00:00+00:01").find("outside years 0000-9999") !=
+        std::string::npos);
+  // The first and last instants still read, and write back as the same text.
+  CHECK(format_timestamp_utc(utc_ms("0000-01-01T00:00:00Z")) == "0000-01-01T00:00:00Z");
+  CHECK(utc_ms("0000-01-01T00:00:00Z") == -62'167'219'200'000);
+  CHECK(utc_ms("9999-12-31T23:59:59.999Z") == 253'402'300'799'999);
+  CHECK(utc_ms("9999-12-31T23:00:00-00:59") == 253'402'300'740'000);
+}
+
 }  // namespace
 }  // namespace stagewell

@@ -49,6 +49,12 @@ class Cursor {
   std::size_t pos_ = 0;
 };
 
+// The instants that RFC 3339 text in UTC can write: 0000-01-01T00:00:00Z to 9999-12-31T23:59:59Z
+// (seconds since the epoch; Python: datetime(1, 1, 1) - 366 days for year 0, and
+// datetime(9999, 12, 31, 23, 59, 59) in UTC).
+constexpr std::int64_t kFirstSecond = -62'167'219'200;
+constexpr std::int64_t kLastSecond = 253'402'300'799;
+
 std::unexpected<Error> bad(std::string what) {
   return fail(ErrorKind::parse, what + "; " + std::string(kExpected));
 }
@@ -162,6 +168,11 @@ Result<std::int64_t> parse_timestamp(std::string_view text, const TimeZone* loca
     // hot path of ingest: cheaper than a cctz conversion through the UTC zone.)
     const std::int64_t days = std::chrono::sys_days(date).time_since_epoch().count();
     seconds = days * 86'400 + time_of_day_s - *offset_s;
+  }
+  // An offset or a zone can carry a time written in year 0000 or 9999 out of those years; the
+  // instant must still be writable as RFC 3339 text in UTC (four-digit years), as it is stored.
+  if (seconds < kFirstSecond || seconds > kLastSecond) {
+    return bad("the time is outside years 0000-9999 in UTC");
   }
   return seconds * 1000 + millis;
 }
