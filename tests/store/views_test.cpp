@@ -38,7 +38,7 @@ TEST_CASE("the views have exactly the contracted columns") {
   CHECK(column_names(*raw, "changes") ==
         std::vector<std::string>{"at", "site", "period_from", "period_to", "config_before",
                                  "config_after", "readings_changed", "max_discharge_change",
-                                 "max_daily_volume_change"});
+                                 "max_daily_volume_change", "finished"});  // finished: schema 7
   // `changes` is the old name of `recomputations` (schema/005): both answer the same columns.
   CHECK(column_names(*raw, "recomputations") == column_names(*raw, "changes"));
 }

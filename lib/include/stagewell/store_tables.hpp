@@ -7,6 +7,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "stagewell/result.hpp"
@@ -56,8 +57,8 @@ class ProgressTable : store_detail::TableHandle {
   using TableHandle::TableHandle;
 };
 
-// One row of `recomputation_runs` (schema/004_history.sql, renamed by 005): one recomputation of
-// one site.
+// One row of `recomputation_runs` (schema/004_history.sql, renamed by 005, `finished_ms` from 007):
+// one recomputation of one site, which may have been carried on by later runs after being stopped.
 struct RecomputationRun {
   SiteKey site;
   std::int64_t at_ms = 0;           // when it started
@@ -68,6 +69,7 @@ struct RecomputationRun {
   std::int64_t readings_changed = 0;
   double max_discharge_change = 0.0;     // m^3/s or ft^3/s
   double max_daily_volume_change = 0.0;  // m^3 or ft^3
+  std::optional<std::int64_t> finished_ms;  // when its last step committed; empty until then
 };
 
 class RecomputationRunsTable : store_detail::TableHandle {
@@ -76,6 +78,8 @@ class RecomputationRunsTable : store_detail::TableHandle {
   Result<std::int64_t> add(WriteBatch& batch, const RecomputationRun& run);
   // Brings run `id` up to date (its site and start stay). REQUIRES: as add().
   Result<void> update(WriteBatch& batch, std::int64_t id, const RecomputationRun& run);
+  // The site's latest run not marked finished (stopped part-way), with its id; nullopt if none.
+  Result<std::optional<std::pair<std::int64_t, RecomputationRun>>> unfinished(SiteKey site);
 
  private:
   using TableHandle::TableHandle;

@@ -13,6 +13,7 @@
 #include "stagewell/checks.hpp"
 #include "stagewell/daily.hpp"
 #include "stagewell/site_history.hpp"
+#include "stagewell/timestamp.hpp"
 
 namespace stagewell {
 namespace {
@@ -112,8 +113,19 @@ Result<std::unique_ptr<Recomputation>> Recomputation::plan(Store& store, const C
     totals.period_to_ms =
         std::max(totals.period_to_ms.value_or((*found)->second), (*found)->second);
   }
+  // A recomputation of this site stopped part-way: this run goes on with its row.
+  auto earlier = store.recomputation_runs().unfinished(*key);
+  if (!earlier) return std::unexpected(earlier.error());
+  if (*earlier) state->record.resume((*earlier)->first, (*earlier)->second);
   if (!totals.period_from_ms) {
     state->finished = true;
+    if (*earlier) {  // its rest was done by another run, or undone by a later configuration
+      auto batch = store.begin();
+      if (!batch) return std::unexpected(batch.error());
+      auto marked = state->record.write(store, *batch, *key, now_ms, totals, now_ms);
+      if (!marked) return std::unexpected(marked.error());
+      if (auto committed = batch->commit(); !committed) return std::unexpected(committed.error());
+    }
     return std::unique_ptr<Recomputation>(new Recomputation(std::move(state)));
   }
   auto count = readings.count(*key, *totals.period_from_ms, *totals.period_to_ms);
@@ -244,15 +256,20 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   }
 
   s.totals.readings_walked += static_cast<std::int64_t>(stored.size());
+  const bool last_step = static_cast<std::int64_t>(stored.size()) < max_readings ||
+                         stored.empty() || stored.back().time_ms >= *s.totals.period_to_ms;
   if (s.record.any()) {
-    if (auto done = s.record.write(store, *batch, s.key, s.started_ms, s.totals); !done) {
+    // Finished: the wall clock, never before the start (which a test's clock may set ahead).
+    const auto finished =
+        last_step ? std::optional(std::max(system_now_ms(), s.started_ms)) : std::nullopt;
+    if (auto done = s.record.write(store, *batch, s.key, s.started_ms, s.totals, finished);
+        !done) {
       return done;
     }
   }
   if (auto committed = batch->commit(); !committed) return committed;
   s.broken = false;
-  if (static_cast<std::int64_t>(stored.size()) < max_readings || stored.empty() ||
-      stored.back().time_ms >= *s.totals.period_to_ms) {
+  if (last_step) {
     s.finished = true;
   } else {
     s.cursor_ms = stored.back().time_ms + 1;
