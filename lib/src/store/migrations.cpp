@@ -18,7 +18,6 @@ struct SchemaState {
 };
 
 Result<SchemaState> read_state(sqlite::Connection& connection) {
-  SchemaState state;
   auto application_id = connection.query_int64("PRAGMA application_id");
   if (!application_id) return std::unexpected(application_id.error());
   auto user_version = connection.query_int64("PRAGMA user_version");

@@ -71,7 +71,7 @@ Result<std::unique_ptr<StatusApi>> StatusApi::open(const Config& config, LiveFig
   auto zone = TimeZone::parse(config.timezone);
   if (!zone) return std::unexpected(zone.error());
   auto state = std::unique_ptr<State>(
-      new State{config, std::move(*store), std::move(*zone), std::move(live), {}});
+      new State{config, std::move(*store), std::move(*zone), std::move(live), {}, std::nullopt});
   return std::unique_ptr<StatusApi>(new StatusApi(std::move(state)));
 }
 
