@@ -63,6 +63,33 @@ def programs(args):
 
 # ---- waiting -----------------------------------------------------------------------------------
 
+def rss_kib(pid):
+    """Resident memory of a process in KiB (/proc/PID/status, VmRSS); None once it is gone."""
+    try:
+        with open(f"/proc/{pid}/status") as f:
+            for line in f:
+                if line.startswith("VmRSS:"):
+                    return int(line.split()[1])
+    except FileNotFoundError:
+        pass
+    return None
+
+
+# In the checking build (deploy/test.sh) the programs run under AddressSanitizer: ctest sets
+# STAGEWELL_SANITIZED=1 and caps ASan's quarantine of freed blocks with quarantine_size_mb (the
+# same figure, tests/CMakeLists.txt).
+ASAN_QUARANTINE_MIB = 64
+
+
+def memory_growth_bound_kib(bound_kib):
+    """A bound on how much a program's resident memory may grow, widened in the checking build
+    by what AddressSanitizer keeps for itself: its quarantine, and shadow memory of one byte per
+    eight bytes of the program's (AddressSanitizer's design)."""
+    if os.environ.get("STAGEWELL_SANITIZED") != "1":
+        return bound_kib
+    return bound_kib * 9 // 8 + ASAN_QUARANTINE_MIB * 1024
+
+
 def wait_until(predicate, timeout_s, interval_s=0.02):
     """Polls `predicate` until it returns a true value (returned) or `timeout_s` passes (None)."""
     deadline = time.monotonic() + timeout_s

@@ -108,15 +108,6 @@ def status_of(reply):
         return None
 
 
-def rss_kib(pid):
-    """Resident memory of a process in KiB (/proc/PID/status, VmRSS)."""
-    with open(f"/proc/{pid}/status") as f:
-        for line in f:
-            if line.startswith("VmRSS:"):
-                return int(line.split()[1])
-    return None
-
-
 def minute_series(end_ms, minutes, stage_of):
     """[(ms, stage)] one a minute, the last at end_ms (whole minutes)."""
     end_ms -= end_ms % 60000
