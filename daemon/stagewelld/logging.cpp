@@ -2,12 +2,17 @@
 
 #include <fmt/format.h>
 #include <spdlog/details/file_helper.h>
+#include <spdlog/pattern_formatter.h>
 #include <spdlog/sinks/base_sink.h>
 #include <spdlog/sinks/stdout_sinks.h>
 #include <spdlog/spdlog.h>
 #include <sys/stat.h>
 
+#include <unistd.h>
+
+#include <cstdlib>
 #include <mutex>
+#include <string_view>
 
 namespace stagewell::service {
 namespace {
@@ -17,6 +22,45 @@ std::string identity_of(const std::filesystem::path& path) {
   if (::stat(path.c_str(), &status) != 0) return "";
   return fmt::format("{}:{}", status.st_dev, status.st_ino);
 }
+
+// True when stderr is the journal's stream: systemd sets JOURNAL_STREAM to "<device>:<inode>" of
+// the stream it connects, and a program compares it with its own stderr, so that a child whose
+// stderr was redirected elsewhere does not take the journal's format (systemd.exec(5)).
+bool stderr_is_journal() {
+  const char* stream = std::getenv("JOURNAL_STREAM");
+  if (stream == nullptr || *stream == '\0') return false;
+  struct stat status {};
+  if (::fstat(STDERR_FILENO, &status) != 0) return false;
+  return fmt::format("{}:{}", status.st_dev, status.st_ino) == stream;
+}
+
+// `%*` in a pattern: the line's syslog priority as journald reads it from the start of a line
+// ("<3>" error, "<4>" warning, "<6>" info, "<7>" debug; sd-daemon(3), RFC 5424 severities).
+class PriorityFlag final : public spdlog::custom_flag_formatter {
+ public:
+  void format(const spdlog::details::log_msg& message, const std::tm&,
+              spdlog::memory_buf_t& out) override {
+    std::string_view prefix = "<6>";
+    switch (message.level) {
+      case spdlog::level::critical: prefix = "<2>"; break;
+      case spdlog::level::err: prefix = "<3>"; break;
+      case spdlog::level::warn: prefix = "<4>"; break;
+      case spdlog::level::info: prefix = "<6>"; break;
+      case spdlog::level::debug:
+      case spdlog::level::trace: prefix = "<7>"; break;
+      default: break;
+    }
+    out.append(prefix.data(), prefix.data() + prefix.size());
+  }
+  std::unique_ptr<custom_flag_formatter> clone() const override {
+    return std::make_unique<PriorityFlag>();
+  }
+};
+
+// Each line's own time and level; the journal's lines carry the priority instead of the time
+// (the journal stamps each line itself).
+constexpr const char* kPattern = "%Y-%m-%dT%H:%M:%S.%e%z %l %v";
+constexpr const char* kJournalPattern = "%*%l %v";
 
 }  // namespace
 
@@ -73,10 +117,17 @@ class ReopenableFileSink final : public spdlog::sinks::base_sink<std::mutex> {
 };
 
 Logging::Logging(const std::string& level) : file_sink_(std::make_shared<ReopenableFileSink>()) {
-  std::vector<spdlog::sink_ptr> sinks{std::make_shared<spdlog::sinks::stderr_sink_mt>(),
-                                      file_sink_};
+  auto stderr_sink = std::make_shared<spdlog::sinks::stderr_sink_mt>();
+  if (stderr_is_journal()) {
+    auto formatter = std::make_unique<spdlog::pattern_formatter>();
+    formatter->add_flag<PriorityFlag>('*').set_pattern(kJournalPattern);
+    stderr_sink->set_formatter(std::move(formatter));
+  } else {
+    stderr_sink->set_pattern(kPattern);
+  }
+  file_sink_->set_pattern(kPattern);
+  std::vector<spdlog::sink_ptr> sinks{stderr_sink, file_sink_};
   auto logger = std::make_shared<spdlog::logger>("stagewell", sinks.begin(), sinks.end());
-  logger->set_pattern("%Y-%m-%dT%H:%M:%S.%e%z %l %v");
   logger->flush_on(spdlog::level::info);
   spdlog::set_default_logger(logger);  // before any other thread exists
   set_level(level);

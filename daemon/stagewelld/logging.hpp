@@ -2,6 +2,11 @@
 // configured, to a file that survives rotation (reopened on SIGHUP and whenever the path stops
 // naming the file being written, as after logrotate's rename).
 //
+// A line is "<time> <level> <text>". When stderr is the journal's stream (JOURNAL_STREAM names
+// it), stderr's lines are "<N><level> <text>" instead: N is the syslog priority, which journald
+// files the line under (so `journalctl -p warning` finds warnings), and the journal's own time
+// stamp replaces ours. The log file keeps the time.
+//
 // Thread-safety: the service logs from its loop, its writer and its HTTP readers at once. The
 // logger is installed once and never replaced; apply() and the reopening change its level
 // (atomic in spdlog) and the file behind its file sink (under the sink's own lock), so a line

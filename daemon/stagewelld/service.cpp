@@ -1,5 +1,6 @@
 #include "service.hpp"
 
+#include <fmt/format.h>
 #include <spdlog/spdlog.h>
 
 #include <chrono>
@@ -45,7 +46,8 @@ Service::Service(boost::asio::io_context& io, std::string config_path, Logging& 
       logging_(logging),
       signals_(io),
       log_timer_(io),
-      stop_timer_(io) {}
+      stop_timer_(io),
+      watchdog_timer_(io) {}
 
 Service::~Service() {
   close_network();
@@ -75,6 +77,8 @@ bool Service::start() {
   signals_.add(SIGHUP);
   wait_for_signal();
   schedule_log_check();
+  schedule_watchdog();
+  readiness_.status("opening the database " + config->database.string());
   writer_ = std::make_unique<Writer>(io_);
   writer_->open(
       *config, [this, config = *config](Result<int> result) { opened(config, std::move(result)); });
@@ -96,10 +100,19 @@ void Service::opened(const Config& config, Result<int> schema_version) {
     return;
   }
   log_started(*schema_version);
+  readiness_.ready(summary());
   if (reload_waiting_) {
     reload_waiting_ = false;
     reload();
   }
+}
+
+std::string Service::summary() const {
+  std::size_t files = 0;
+  for (const auto& source : config_->sources) files += source.type != SourceSpec::Type::tcp;
+  return fmt::format("running: {} site(s), {} file source(s), {} tcp source(s); database {}",
+                     config_->sites.size(), files, tcp_ ? tcp_->size() : 0,
+                     config_->database.string());
 }
 
 void Service::log_started(int schema_version) {
@@ -141,6 +154,16 @@ void Service::close_network() {
   http_.reset();
 }
 
+void Service::schedule_watchdog() {
+  const auto interval = readiness_.watchdog_interval();
+  if (!interval) return;
+  readiness_.watchdog();
+  watchdog_timer_.expires_after(*interval);
+  watchdog_timer_.async_wait([this](const boost::system::error_code& error) {
+    if (!error) schedule_watchdog();  // cancelled at the end
+  });
+}
+
 void Service::schedule_log_check() {
   log_timer_.expires_after(kLogCheck);
   log_timer_.async_wait([this](const boost::system::error_code& error) {
@@ -178,6 +201,7 @@ void Service::on_signal(int signal_number) {
 void Service::shut_down() {
   if (stopping_) return;
   stopping_ = true;
+  readiness_.stopping("stopping: committing what is in hand");
   close_network();
   // A writer waiting for another process's lock gives up after a short while: the stop must not
   // hang on something outside the service.
@@ -197,6 +221,7 @@ void Service::stopped(int writer_status) {
   boost::system::error_code ignored;
   signals_.cancel(ignored);
   log_timer_.cancel();
+  watchdog_timer_.cancel();
   busy_.reset();  // run() returns once the connections have closed
 }
 
@@ -212,11 +237,13 @@ void Service::reload() {
   }
   logging_.reopen();
   spdlog::info("SIGHUP: reloading {}", config_path_);
+  readiness_.reloading("reloading " + config_path_);
   auto config = load_config(config_path_);
   if (!config) {
     for (const auto& error : config.error()) spdlog::error("{}", error.to_string());
     spdlog::error("the new configuration has {} error(s); keeping the running one",
                   config.error().size());
+    reload_refused(fmt::format("{} configuration error(s)", config.error().size()));
     return;
   }
   ensure_directories(*config);
@@ -225,6 +252,7 @@ void Service::reload() {
     auto lock = ServiceLock::acquire(config->database);
     if (!lock) {
       spdlog::error("{}; keeping the running configuration", lock.error().message);
+      reload_refused("the new database is in use by another service");
       return;
     }
     new_lock->emplace(std::move(*lock));
@@ -237,6 +265,11 @@ void Service::reload() {
       *config, [this, config = *config, new_lock, previous_log](const Writer::Reloaded& outcome) {
         reloaded(config, new_lock, previous_log, outcome);
       });
+}
+
+void Service::reload_refused(std::string_view why) {
+  readiness_.ready(fmt::format("{}; last reload refused ({}), the running configuration kept",
+                               summary(), why));
 }
 
 void Service::reloaded(Config config, std::shared_ptr<std::optional<ServiceLock>> new_lock,
@@ -264,6 +297,11 @@ void Service::reloaded(Config config, std::shared_ptr<std::optional<ServiceLock>
   }
   if (outcome.applied) log_started(outcome.schema_version);
   spdlog::info("reloaded; totals before the reload: {}", outcome.totals);
+  if (outcome.applied) {
+    readiness_.ready(summary());
+  } else {
+    reload_refused(outcome.error);
+  }
   if (reload_waiting_) {
     reload_waiting_ = false;
     reload();

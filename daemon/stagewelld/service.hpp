@@ -24,6 +24,7 @@
 
 #include "http_server.hpp"
 #include "logging.hpp"
+#include "readiness.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/service_lock.hpp"
 #include "tcp_listener.hpp"
@@ -60,6 +61,10 @@ class Service {
   void shut_down();
   void stopped(int writer_status);
   void schedule_log_check();
+  void schedule_watchdog();
+  std::string summary() const;  // the running configuration in a line, for systemd's STATUS=
+  // Tells systemd the service is ready again after a reload that kept the running configuration.
+  void reload_refused(std::string_view why);
 
   boost::asio::io_context& io_;
   std::string config_path_;
@@ -67,6 +72,8 @@ class Service {
   boost::asio::signal_set signals_;
   boost::asio::steady_timer log_timer_;   // notices a rotated log file
   boost::asio::steady_timer stop_timer_;  // the stop's deadline for waiting on a lock
+  boost::asio::steady_timer watchdog_timer_;  // systemd's watchdog pings (readiness.hpp)
+  Readiness readiness_ = Readiness::from_environment();
   // Keeps run() going while the writer works and the network side has nothing pending.
   std::optional<boost::asio::executor_work_guard<boost::asio::io_context::executor_type>> busy_;
   std::optional<ServiceLock> lock_;  // one service per database (service_lock.hpp)

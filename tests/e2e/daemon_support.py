@@ -188,19 +188,28 @@ def iso(ms):
 # ---- the daemon --------------------------------------------------------------------------------
 
 class Daemon:
-    """One `stagewelld --config FILE` process with its stderr in `log_path` (appended)."""
+    """One `stagewelld --config FILE` process with its stderr in `log_path` (appended).
+    `env`: variables to add to (or, with value None, remove from) the process's environment."""
 
-    def __init__(self, program, config_path, log_path):
+    def __init__(self, program, config_path, log_path, env=None):
         self.program = program
         self.config_path = config_path
         self.log_path = log_path
+        self.env = env or {}
         self.process = None
 
     def start(self):
         log = open(self.log_path, "ab")
+        env = dict(os.environ)
+        for name, value in self.env.items():
+            if value is None:
+                env.pop(name, None)
+            else:
+                env[name] = value(log) if callable(value) else value
         try:
             self.process = subprocess.Popen([self.program, "--config", self.config_path],
-                                            stdin=subprocess.DEVNULL, stdout=log, stderr=log)
+                                            stdin=subprocess.DEVNULL, stdout=log, stderr=log,
+                                            env=env)
         finally:
             log.close()
         return self
