@@ -26,6 +26,7 @@ int main(int argc, char** argv) {
   add_plot_command(program, chosen);
   add_send_command(program, chosen);
   add_recompute_command(program, chosen);
+  add_backup_command(program, chosen);
 
   try {
     program.parse(argc, argv);

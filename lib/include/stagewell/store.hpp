@@ -25,6 +25,7 @@
 
 #include <cstdint>
 #include <filesystem>
+#include <functional>
 #include <memory>
 #include <optional>
 #include <string>
@@ -69,6 +70,21 @@ class Store {
   // when the file is sound. Fails (not_found) without a file, (damaged) when SQLite cannot even
   // read it as a database.
   static Result<std::vector<std::string>> check_integrity(const std::filesystem::path& path);
+
+  // How far a backup is: pages copied of the database's pages (SQLite's page counts).
+  using BackupProgress = std::function<void(std::int64_t copied, std::int64_t total)>;
+  struct BackupResult {
+    std::int64_t pages = 0;
+    std::int64_t bytes = 0;
+  };
+  // Copies the database at `path` to `destination` while others may write to it (SQLite's online
+  // backup): the copy is the database as it was committed when the backup began, as one file of
+  // its own (rollback journal, no -wal). Written under "<destination>.part" and renamed into place
+  // once complete and synced, so `destination` never names half a copy. Fails when `destination`
+  // exists (invalid_argument) or the database cannot be read.
+  static Result<BackupResult> backup(const std::filesystem::path& path,
+                                     const std::filesystem::path& destination,
+                                     const BackupProgress& progress);
 
   Store(Store&&) noexcept;
   Store& operator=(Store&&) noexcept;

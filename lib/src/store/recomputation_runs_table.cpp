@@ -76,7 +76,8 @@ RecomputationRunsTable::unfinished(SiteKey site) {
                                       .config_after = s.column_text(5),
                                       .readings_changed = s.column_int64(6),
                                       .max_discharge_change = s.column_double(7),
-                                      .max_daily_volume_change = s.column_double(8)});
+                                      .max_daily_volume_change = s.column_double(8),
+                                      .finished_ms = std::nullopt});
   });
 }
 
