@@ -2,7 +2,7 @@
 // StatusApi (stagewell/status_api.hpp), carried over Boost.Beast on the service's io_context and
 // answered on reader threads (http_readers.hpp).
 //
-// Limits on every connection (README, "HTTP: the status page, API and metrics"): at most
+// Limits on every connection (docs/http-api.md, "HTTP: the status page, API and metrics"): at most
 // max_connections at once (more are answered 503 and closed); a request's header must arrive whole
 // within request_timeout, which is also how long an idle kept-alive connection stays; header at
 // most 8 KiB (431), body at most 1 KiB (413; GET and HEAD need none), target at most 2 KiB (414).

@@ -27,7 +27,7 @@ that round's ingest:
 --recompute adds, after the rounds, `stagewell recompute` of one site-year (raceway-a, 525,600
 readings) after its roughness is changed, start to exit: readings per second.
 
-Never run by ctest: the figures go in README ("Performance").
+Never run by ctest: the figures go in docs/performance.md.
 """
 import argparse
 import datetime

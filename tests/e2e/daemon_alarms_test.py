@@ -52,9 +52,9 @@ STAGES = [0.30] * 10 + [0.10] * 15 + [0.16] * 5 + [0.30] * 10
 
 
 def expected_low_flow(times_ms, stages):
-    """(raised_ms, raised_q, cleared_ms) from the rules in README, "Alarms": raise at the reading
-    that completes HOLD of consecutive readings below BELOW; clear at the first reading above
-    BELOW + HYSTERESIS."""
+    """(raised_ms, raised_q, cleared_ms) from the rules in docs/checks-and-alarms.md, "Alarms":
+    raise at the reading that completes HOLD of consecutive readings below BELOW; clear at the first
+    reading above BELOW + HYSTERESIS."""
     shape = ds.rectangular(WIDTH, 1.0)
     raised = cleared = raised_q = None
     run_start = None

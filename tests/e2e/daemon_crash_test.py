@@ -2,11 +2,12 @@
 """kill -9 of `stagewelld` while it ingests a large dropped file, again and again: after the last
 restart every reading is stored exactly once, with its stage, and nothing is a conflict.
 
-The store commits each batch's readings together with how far the file has been read (README,
-"The database"), so a crash at any instant neither loses nor repeats a line. The kills land at
-different moments — before the first commit, and at several points of the file, a little after a
-commit became visible (by a random few milliseconds) — and one while the file has been read to
-its end but perhaps not yet moved to done/. The expected readings are the lines this script wrote.
+The store commits each batch's readings together with how far the file has been read
+(docs/database.md, "Schema and migrations"), so a crash at any instant neither loses nor repeats a
+line. The kills land at different moments — before the first commit, and at several points of the
+file, a little after a commit became visible (by a random few milliseconds) — and one while the file
+has been read to its end but perhaps not yet moved to done/. The expected readings are the lines
+this script wrote.
 """
 import os
 import random

@@ -4,8 +4,8 @@ of every injected fault, and every kind of bad input kept in `rejects` with its 
 
 The reference is independent of the C++ core: Manning's equation in closed form for rectangular,
 trapezoidal and circular sections (daemon_support.manning; Manning's equation, closed form, common
-practice), and the check definitions as the README states them, applied by hand to each injected
-fault below.
+practice), and the check definitions as docs/checks-and-alarms.md states them, applied by hand to
+each injected fault below.
 
 Tolerances. Depth is stage + offset - zero_flow, converted: one or two roundings, so 1e-12 m.
 Discharge inside a section is read from the site's rating table, a piecewise cubic documented
@@ -100,7 +100,7 @@ def at(site, minute, stage, flags=""):
     return (site, T0 + minute * MIN, stage, set(flags.split(",")) if flags else set())
 
 
-# ---- what file 1 holds, and the flags the checks must give (README's definitions) ----------------
+# ---- what file 1 holds, and the flags the checks must give (docs/checks-and-alarms.md) -----------
 
 def first_file_readings():
     rows = []

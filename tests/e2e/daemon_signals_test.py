@@ -38,7 +38,7 @@ sites:
     roughness: {roughness}
     slope: 0.001
 """
-    if change is not None:  # (from_ms, roughness): the site's history (README, "History and ...")
+    if change is not None:  # (from_ms, roughness): the site's history (docs/configuration.md)
         text += f"""\
     changes:
       - from: {ds.iso(change[0])}

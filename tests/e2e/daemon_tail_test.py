@@ -4,9 +4,9 @@ partly written line waits for its end, a too-long line cut by a kill -9 is kept 
 resumes without repeats or losses, and truncation, rewriting and rotation (while running and while
 stopped) lose nothing.
 
-What is asserted is the contract in README ("sources"): every complete line of every file that was
-at the tailed path is stored exactly once, with its stage as written. The expected readings are
-the lines this script wrote; nothing is computed by the program under test.
+What is asserted is the contract in docs/input.md ("Sources"): every complete line of every file
+that was at the tailed path is stored exactly once, with its stage as written. The expected readings
+are the lines this script wrote; nothing is computed by the program under test.
 """
 import os
 import signal

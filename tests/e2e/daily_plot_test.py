@@ -4,9 +4,9 @@ flagged readings are marked by shape as well as colour, the axes carry units, va
 the axis says, and the duration curve runs along its plotting positions.
 
 What is compared comes from outside the plotting code: the runs between gaps are counted from
-the `discharge` view with the README's rule (a break where readings are more than max_gap apart,
-and for discharge at readings without one); the value-to-pixel mapping is read back from the
-SVG's own tick labels; the curve's points from `stagewell stats --json`.
+the `discharge` view with the rule of docs/daily-and-statistics.md (a break where readings are more
+than max_gap apart, and for discharge at readings without one); the value-to-pixel mapping is read
+back from the SVG's own tick labels; the curve's points from `stagewell stats --json`.
 """
 import os
 import re
@@ -55,7 +55,7 @@ def write_readings(path):
 
 
 def runs(readings, with_discharge):
-    """How many unbroken lines a series makes (README, `stagewell plot`)."""
+    """How many unbroken lines a series makes (docs/daily-and-statistics.md, `stagewell plot`)."""
     count, previous = 0, None
     for t, q in zip(readings["t"], readings["q"]):
         if with_discharge and np.isnan(q):

@@ -2,12 +2,12 @@
 named *_test.py): invented stage series, running `stagewell`, reading the views, and the
 independent reference for daily figures.
 
-The reference is written from the definitions in README ("Daily figures"), not from the C++: the
-discharge is made a piecewise-linear function with numpy.interp on a grid that holds every used
-reading and every day boundary, the grid segments that fall in a missing stretch are masked, and
-each day is integrated with scipy.integrate.trapezoid over its runs of valid segments (exact for
-a piecewise-linear function). Day boundaries come from pandas.date_range over the IANA zone or
-the fixed offset; minima, maxima and counts from pandas groupby on the local date.
+The reference is written from the definitions in docs/daily-and-statistics.md ("Definitions"), not
+from the C++: the discharge is made a piecewise-linear function with numpy.interp on a grid that
+holds every used reading and every day boundary, the grid segments that fall in a missing stretch
+are masked, and each day is integrated with scipy.integrate.trapezoid over its runs of valid
+segments (exact for a piecewise-linear function). Day boundaries come from pandas.date_range over
+the IANA zone or the fixed offset; minima, maxima and counts from pandas groupby on the local date.
 """
 import datetime as dt
 import json
@@ -22,7 +22,7 @@ from scipy.integrate import trapezoid
 
 import daemon_support
 
-REL = 1e-9  # the agreement required of the daily figures (README)
+REL = 1e-9  # the agreement required of the daily figures (docs/daily-and-statistics.md)
 
 
 class Results(daemon_support.Results):
@@ -107,7 +107,8 @@ def daily_view(db, site):
 # ---- the reference -----------------------------------------------------------------------------
 
 def reference_days(readings, zone, max_gap_ms, excluded, bridged):
-    """Daily figures of `readings` (stored_readings) by the README's definitions.
+    """Daily figures of `readings` (stored_readings) by the definitions in
+    docs/daily-and-statistics.md.
 
     excluded, bridged: sets of flag names. Returns {day: dict} with the `daily` view's columns
     (times as ms) plus 'flags' {name: count}; days with neither readings nor covered time left out.

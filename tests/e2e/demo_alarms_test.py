@@ -4,8 +4,8 @@
 during its cleaning drawdown and the creek's rising during the storm.
 
 The expected raise and clear times are computed here from the demo's CSV files with the rules of
-README, "Alarms" and Manning's equation in closed form (daemon_support.manning), not read from the
-program.
+docs/checks-and-alarms.md, "Alarms" and Manning's equation in closed form (daemon_support.manning),
+not read from the program.
 """
 import datetime
 import glob
@@ -58,7 +58,7 @@ def threshold_alarm(series, raises, clears, hold_ms):
 
 def rates(series, window_ms):
     """[(t, m/h)]: change from the oldest reading within the window to this one, when the window
-    holds at least half a window of readings (README, "Alarms")."""
+    holds at least half a window of readings (docs/checks-and-alarms.md, "Alarms")."""
     out, window = [], []
     for t, stage in series:
         window.append((t, stage))

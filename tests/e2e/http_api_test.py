@@ -77,7 +77,7 @@ def check_sites(port, db, channel_rows):
                 by_id[site]["today"]["readings"] == (day[0][1] if day else 0))
     # The latest channel reading against Manning's equation in closed form: rectangular,
     # 2 m wide, n 0.014, S 0.001, depth = stage (no offset, zero flow 0); 5e-4 is the rating
-    # table's interpolation tolerance (README, "Rating tables").
+    # table's interpolation tolerance (docs/hydraulics.md, "Rating tables").
     stage = channel_rows[-1][1]
     want, _ = ds.manning(ds.rectangular(2.0, 1.5), 0.014, 0.001, stage)
     R.close("channel: latest discharge vs Manning closed form",

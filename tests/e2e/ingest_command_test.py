@@ -3,8 +3,9 @@
 rejected by reason), exit statuses, resume after an interruption, `--again`, and the progress
 display (a bar on a terminal, plain lines otherwise).
 
-The expected counts come from the files this script writes and the check definitions in README,
-applied by hand below; the stored rows are read back through the `discharge` view.
+The expected counts come from the files this script writes and the check definitions in
+docs/checks-and-alarms.md, applied by hand below; the stored rows are read back through the
+`discharge` view.
 """
 import os
 import pty

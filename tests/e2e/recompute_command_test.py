@@ -158,7 +158,7 @@ def main():
                 "WHERE site = 'canal'")}
         r.check("every reading kept", len(stored) == COUNT, str(len(stored)))
         # Every reading against the closed form (the rating table's interpolation is within 1e-6
-        # relative of the formula: README, "Hydraulics"; 1e-5 allowed here).
+        # relative of the formula: docs/hydraulics.md, "Hydraulics"; 1e-5 allowed here).
         worst = 0.0
         for i, t in enumerate(times):
             stage, depth, q, _ = stored[t]

@@ -2,9 +2,9 @@
 """A tcp source with a shared secret and small limits: who is refused, who is closed, and that
 the others go on (loopback).
 
-Expected behaviour is the protocol's (README, "Readings over TCP"): `refused auth` for a wrong or
-missing secret, `refused busy` beyond max_clients, `closing` after idle_timeout, and a client that
-never reads its replies is stopped and closed while memory stays bounded.
+Expected behaviour is the protocol's (docs/tcp-protocol.md, "Readings over TCP"): `refused auth` for
+a wrong or missing secret, `refused busy` beyond max_clients, `closing` after idle_timeout, and a
+client that never reads its replies is stopped and closed while memory stays bounded.
 """
 import os
 import socket

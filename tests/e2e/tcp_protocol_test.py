@@ -1,11 +1,11 @@
 #!/usr/bin/env python3
 """The tcp source's protocol, line by line, against what was sent (loopback, one daemon).
 
-What is expected comes from the protocol (README, "Readings over TCP"): lines after `auth` are
-numbered 1, 2, ... per connection, every line counts, `ok n` covers lines 1..n once stored,
-`error n kind reason` names a rejected line at once. Stored discharges are compared with Manning's
-equation computed here (V. T. Chow, Open-Channel Hydraulics, 1959, ch. 5); the service's rating
-table is documented to agree within 0.01 %.
+What is expected comes from the protocol (docs/tcp-protocol.md, "Readings over TCP"): lines after
+`auth` are numbered 1, 2, ... per connection, every line counts, `ok n` covers lines 1..n once
+stored, `error n kind reason` names a rejected line at once. Stored discharges are compared with
+Manning's equation computed here (V. T. Chow, Open-Channel Hydraulics, 1959, ch. 5); the service's
+rating table is documented to agree within 0.01 %.
 """
 import os
 import random

@@ -1,6 +1,6 @@
 // Any request line the HTTP transport lets through, to the status page and API (status_api.hpp):
 // method, target and Accept field of any bytes, answered over a small real database. Checked on
-// every input, from the HTTP semantics the API follows (RFC 9110) and README's API section:
+// every input, from the HTTP semantics the API follows (RFC 9110) and docs/http-api.md:
 //  - the status is a valid code (RFC 9110, section 15: 100-599), never 500 on this healthy store;
 //  - a JSON answer is JSON (RFC 8259); a 405 names the allowed methods (RFC 9110, 15.5.6);
 //  - HEAD gives the same status and body as GET (RFC 9110, 9.3.2; the transport drops the body);

@@ -1,6 +1,6 @@
 // A TCP client sending any bytes, in pieces of any size, to the tcp source's protocol core
 // (tcp_intake.hpp) on a real Ingestor and database. Checked on every input, from the protocol as
-// README defines it ("Readings over TCP"):
+// docs/tcp-protocol.md defines it ("Readings over TCP"):
 //  - every reply is whole lines, each starting with ok, error, refused or closing;
 //  - `ok <n>` never counts more lines than were sent, and never goes back;
 //  - after `refused`, nothing more is read or answered;

@@ -1,6 +1,6 @@
 // Alarms through the Ingestor: written in the same transaction as the readings that raise them,
 // dropped with a batch that is dropped, and not raised twice across a restart. Expected times are
-// worked by hand from the scripted readings below (rules: README, "Alarms").
+// worked by hand from the scripted readings below (rules: docs/checks-and-alarms.md, "Alarms").
 #include <doctest/doctest.h>
 
 #include <memory>

@@ -207,8 +207,8 @@ TEST_CASE("tail: truncated between polls and written again: the repeats change n
   write_file(path, again.text);
   service.run(tail, 4096);
   check_stored_once(service, first + again);
-  // Readings of lines(0, 5) are repeats of stored ones (README, "Repeats and conflicts"); its
-  // reject (minute 3) is a line read again, kept again.
+  // Readings of lines(0, 5) are repeats of stored ones (docs/input.md, "Repeats and conflicts");
+  // its reject (minute 3) is a line read again, kept again.
   CHECK(service.ingestor->counts().duplicates - duplicates_before ==
         static_cast<std::int64_t>(lines(0, 5).readings.size()));
 }

@@ -1,7 +1,7 @@
-// LineIntake: what became of each line, as the input rules say (README, "Input: CSV readings" and
-// "Repeats and conflicts"): header, blank and comment lines are not data; a new reading is stored;
-// the same site, time and stage again is a repeat; another stage for a stored time is a conflict
-// kept in rejects; a line that is no reading is a reject of its kind.
+// LineIntake: what became of each line, as the input rules say (docs/input.md, "Input: CSV
+// readings" and "Repeats and conflicts"): header, blank and comment lines are not data; a new
+// reading is stored; the same site, time and stage again is a repeat; another stage for a stored
+// time is a conflict kept in rejects; a line that is no reading is a reject of its kind.
 #include "stagewell/line_intake.hpp"
 
 #include <doctest/doctest.h>

@@ -1,9 +1,9 @@
 // The tcp source's protocol core without a socket: bytes fed to a TcpIntake on a real Ingestor and
 // a temporary database, replies read back as text. What each reply must be comes from the
-// protocol as README defines it ("Readings over TCP"): lines after `auth` are numbered from 1,
-// every line counts, `ok <n>` covers lines 1..n once stored (and not before the batch commits),
-// `error <n> <kind> <reason>` is sent at once for a rejected line, `refused auth ...` ends a
-// connection without the secret, and a stored discharge follows Manning's equation.
+// protocol as docs/tcp-protocol.md defines it ("Readings over TCP"): lines after `auth` are
+// numbered from 1, every line counts, `ok <n>` covers lines 1..n once stored (and not before the
+// batch commits), `error <n> <kind> <reason>` is sent at once for a rejected line, `refused auth
+// ...` ends a connection without the secret, and a stored discharge follows Manning's equation.
 #include "stagewell/tcp_intake.hpp"
 
 #include <doctest/doctest.h>
@@ -115,7 +115,7 @@ TEST_CASE("readings are acknowledged only once their batch is committed") {
   // Manning's equation for a rectangular section, Q = A R^(2/3) S^(1/2) / n with A = b y and
   // P = b + 2 y (V. T. Chow, Open-Channel Hydraulics, 1959, ch. 5), computed with Debian's Python
   // for b = 2 m, y = 0.452 m, n = 0.014, S = 0.001: 0.9378965545225891 m^3/s. The stored value
-  // comes from the site's rating table, within 0.05 % of the equation (README).
+  // comes from the site's rating table, within 0.05 % of the equation (docs/hydraulics.md).
   auto raw = test::raw_connection(h.dir.db());
   auto select = raw->prepare("SELECT discharge FROM readings ORDER BY time_ms LIMIT 1");
   REQUIRE(select.has_value());
@@ -240,10 +240,10 @@ TEST_CASE("rejected lines are answered with `error` at once and kept in rejects"
                                      "g1,yesterday,0.4\n"
                                      "g1,2026-05-01T06:01:00Z,1e308\n"
                                      "g1,2026-05-01T06:02:00Z,0.455\n");
-  // One error line per rejected line, in order, naming its line and kind (README, "Service to
-  // client"). Line 5 parses, but its flow area, 2 m x 1e308 m, is past the largest double
-  // (IEEE 754): the Ingestor rejects it as non_finite_stage. The reasons are the parser's and the
-  // Ingestor's sentences; only their kinds are the protocol's.
+  // One error line per rejected line, in order, naming its line and kind (docs/tcp-protocol.md,
+  // "Service to client"). Line 5 parses, but its flow area, 2 m x 1e308 m, is past the largest
+  // double (IEEE 754): the Ingestor rejects it as non_finite_stage. The reasons are the parser's
+  // and the Ingestor's sentences; only their kinds are the protocol's.
   const std::vector<std::string> prefixes = {"error 2 bad_stage ", "error 3 unknown_site ",
                                              "error 4 bad_time ", "error 5 non_finite_stage "};
   std::vector<std::string> lines;
@@ -277,7 +277,7 @@ TEST_CASE("a conflict is answered `error <n> conflict`; a repeat is acknowledged
   CHECK(h.commit(first) == "ok 1\n");
 
   auto second = h.connect();
-  // The reason as README, "Repeats and conflicts", shows it.
+  // The reason as docs/input.md, "Repeats and conflicts", shows it.
   CHECK(h.feed(second,
                "site,time,stage\n"
                "g1,2026-05-01T06:00:00Z,0.452\n"
@@ -350,7 +350,7 @@ TEST_CASE("the same replies whatever the byte at which the input is split") {
 TEST_CASE("a line over max_line_bytes gets `error <n> too_long` as soon as it is known") {
   Harness h;
   auto c = h.connect();  // max_line_bytes: 64
-  // 64 bytes exactly: spaces pad the stage field (README: exactly the limit is read).
+  // 64 bytes exactly: spaces pad the stage field (docs/tcp-protocol.md: exactly the limit is read).
   std::string exact = "g1,2026-05-01T06:00:00Z,";
   exact += std::string(64 - exact.size() - 5, ' ') + "0.452";
   REQUIRE(exact.size() == 64);
@@ -391,7 +391,8 @@ TEST_CASE("a dropped batch closes the connections with lines in it; a resend sto
   CHECK(none == "");
   CHECK(h.stored() == 1);
 
-  // The client reconnects and sends the header and the lines after its last `ok` (README).
+  // The client reconnects and sends the header and the lines after its last `ok`
+  // (docs/tcp-protocol.md).
   auto again = h.connect();
   h.feed(again, "site,time,stage\ng1,2026-05-01T06:01:00Z,0.455\ng1,2026-05-01T06:02:00Z,0.458\n");
   CHECK(h.commit(again) == "ok 3\n");

@@ -1,6 +1,6 @@
 // Alarms on a site: low and high discharge, a sensor gone quiet (stale), and a stage rising fast
-// (README, "Alarms"; the keys are AlarmsSpec in config.hpp). Alarms are aids to operations staff,
-// not a life-safety system.
+// (docs/checks-and-alarms.md, "Alarms"; the keys are AlarmsSpec in config.hpp). Alarms are aids to
+// operations staff, not a life-safety system.
 //
 // SiteAlarms is a pure evaluator: it reads no clock and touches no database. The ingest pipeline
 // feeds it each stored reading in time order and the daemon calls tick() every few seconds; both

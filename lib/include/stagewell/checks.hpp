@@ -5,7 +5,8 @@
 // Comparisons are strict where the definition says "more than" and inclusive where it says
 // "at least" or "within", so a value exactly at a threshold behaves as written below.
 //
-// Definitions (the README copies these; they are this program's definitions, not a standard):
+// Definitions (docs/checks-and-alarms.md copies these; they are this program's definitions, not a
+// standard):
 //
 //   out_of_range  stage < min_stage or stage > max_stage.
 //   future        time > now + max_clock_skew.

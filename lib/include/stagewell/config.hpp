@@ -33,8 +33,8 @@ struct StageSpec {
   double zero_flow = 0.0;  // stage units: stage of zero flow
 };
 
-// Checks on every reading (see README, "Checks"). Durations in seconds. A check whose threshold
-// is unset is off.
+// Checks on every reading (see docs/checks-and-alarms.md, "Checks on each reading"). Durations in
+// seconds. A check whose threshold is unset is off.
 struct ChecksSpec {
   std::optional<double> min_stage;  // stage units: below -> out_of_range
   std::optional<double> max_stage;  // stage units: above -> out_of_range
@@ -48,10 +48,10 @@ struct ChecksSpec {
   friend bool operator==(const ChecksSpec&, const ChecksSpec&) = default;
 };
 
-// Alarms on a site (README, "Alarms"); every alarm is off unless its threshold is set.
-// A threshold alarm raises when its condition has held for `hold_s` (judged by reading times) and
-// clears only once the value is back past threshold ± hysteresis, so that a value hovering at
-// the threshold does not raise and clear over and over.
+// Alarms on a site (docs/checks-and-alarms.md, "Alarms"); every alarm is off unless its threshold
+// is set. A threshold alarm raises when its condition has held for `hold_s` (judged by reading
+// times) and clears only once the value is back past threshold ± hysteresis, so that a value
+// hovering at the threshold does not raise and clear over and over.
 struct ThresholdAlarmSpec {
   std::optional<double> threshold;  // off when empty
   double hysteresis = 0.0;          // same unit as threshold, >= 0
@@ -95,9 +95,9 @@ struct SiteConfig {
   ChecksSpec checks;
   AlarmsSpec alarms;
   int line = 0;  // where the site starts in the file, for messages
-  // History (README, "History and corrections"): the keys above hold before the first change;
-  // each change, in time order, overrides keys from its `from` on. Corrections never overlap and
-  // are sorted by time. In the SiteConfig of a change both lists are empty.
+  // History (docs/configuration.md, "History and corrections"): the keys above hold before the
+  // first change; each change, in time order, overrides keys from its `from` on. Corrections never
+  // overlap and are sorted by time. In the SiteConfig of a change both lists are empty.
   std::vector<SiteChange> changes;
   std::vector<StageCorrection> corrections;
 
@@ -128,8 +128,8 @@ struct ColumnNames {
 };
 
 // A `type: tcp` source: a listener taking CSV lines from gateways and loggers over TCP, each
-// acknowledged once stored (protocol: README, "Readings over TCP"). Limits bound what one client
-// can make the service hold.
+// acknowledged once stored (protocol: docs/tcp-protocol.md, "Readings over TCP"). Limits bound what
+// one client can make the service hold.
 struct TcpSpec {
   std::string address = "127.0.0.1";  // IP address to listen on, as written (IPv4 or IPv6)
   int port = 7207;                    // TCP port, 1 to 65535
@@ -160,7 +160,7 @@ struct LogSpec {
   std::string level = "info";                 // trace | debug | info | warn | error
 };
 
-// How the daily figures (README, "Daily figures") treat flagged readings, and where the water
+// How the daily figures (docs/daily-and-statistics.md) treat flagged readings, and where the water
 // year starts. A flag in neither set is included: its reading's discharge is used as is.
 //   excluded  the reading is dropped and the time around it, back to the previous and on to the
 //             next used reading, counts as missing.
@@ -174,8 +174,8 @@ struct DailySpec {
   Flags bridged = Flag::spike;
 };
 
-// `http:` the status page, JSON API and metrics served by the service (README, "HTTP: the status
-// page, API and metrics"). Read-only: GET and HEAD. Absent: no server.
+// `http:` the status page, JSON API and metrics served by the service (docs/http-api.md, "HTTP: the
+// status page, API and metrics"). Read-only: GET and HEAD. Absent: no server.
 struct HttpSpec {
   std::string address = "127.0.0.1";    // IP address to listen on, as written (IPv4 or IPv6)
   int port = 8207;                      // TCP port, 1 to 65535

@@ -1,7 +1,7 @@
 // Daily figures: for each site and local calendar day, the volume that ran through, the mean,
 // lowest and highest discharge, how much of the day had data, and how many readings were flagged.
 //
-// Definitions (README, "Daily figures", copies these):
+// Definitions (docs/daily-and-statistics.md, "Definitions", copies these):
 //   day        [start, end): from local midnight to the next, in the configuration's `timezone`
 //              (an IANA zone, whose DST days last 23 or 25 hours, or a fixed offset). Where a
 //              zone skips midnight, the day starts at the first instant that exists.

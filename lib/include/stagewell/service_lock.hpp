@@ -4,7 +4,7 @@
 // file holds the holder's process id, for the message.
 //
 // The command-line programs (`stagewell ingest`, `recompute`) do not take the lock: they may run
-// beside the service, which notices their commits (README, "The service").
+// beside the service, which notices their commits (docs/operations.md, "The service").
 //
 // The lock is flock(2) on "<database>.service-lock": the kernel releases it when the process
 // ends however it ends (kill -9 included), so a file left behind by a crash never blocks a start.

@@ -1,7 +1,7 @@
 // Statistics from the daily figures (daily.hpp): totals by month, calendar year and water year,
 // the flow-duration curve, the annual minimum 7-day mean and the annual peak.
 //
-// Definitions (README, "Statistics", copies these):
+// Definitions (docs/daily-and-statistics.md, "`stagewell stats`", copies these):
 //   complete day   a day whose coverage is 1 (no missing time).
 //   totals         per period (month, calendar year, water year), over the period's days that lie
 //                  in the range asked for: volume = the sum of the days' volumes; coverage =

@@ -1,7 +1,7 @@
-// What the service answers over HTTP: the status page, the JSON API and the metrics (README,
-// "HTTP: the status page, API and metrics"). This is the part without sockets: a request's
-// method, target and Accept header in, a complete answer out. daemon/stagewelld/http_*.cpp carry
-// it over Boost.Beast.
+// What the service answers over HTTP: the status page, the JSON API and the metrics
+// (docs/http-api.md, "HTTP: the status page, API and metrics"). This is the part without sockets: a
+// request's method, target and Accept header in, a complete answer out.
+// daemon/stagewelld/http_*.cpp carry it over Boost.Beast.
 //
 // Reads come from the database through a StoreReader (store_reader.hpp): a read-only connection
 // of its own, so a request never takes the writer's lock; every query is bounded (one site's rows
@@ -44,7 +44,7 @@ struct LiveFigures {
 };
 using LiveFiguresSource = std::function<LiveFigures()>;
 
-// Limits on what one request may ask for (documented in README).
+// Limits on what one request may ask for (documented in docs/http-api.md).
 inline constexpr std::int64_t kMaxReadingsRangeMs = 31LL * 24 * 3600 * 1000;  // 31 days
 inline constexpr std::int64_t kMaxReadingsPerRequest = 20000;  // rows; more: truncated
 inline constexpr int kMaxDailyRangeDays = 366;

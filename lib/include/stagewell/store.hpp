@@ -3,8 +3,8 @@
 // of recomputations. It alone writes SQL.
 //
 // The schema (schema/NNN_name.sql, compiled in) is applied at open. Analysts read the database
-// through two views, `discharge` and `rejects`, whose columns are a public contract (README, "The
-// database").
+// through two views, `discharge` and `rejects`, whose columns are a public contract
+// (docs/database.md, "The views").
 //
 // Durability: everything one batch of input produced — its readings, its rejects and how far its
 // source has been read — is committed in ONE transaction (WriteBatch). After a crash the source is
@@ -61,7 +61,7 @@ class Store {
   // caller's job. Refuses a database newer than this program and another application's file.
   static Result<Store> open(const std::filesystem::path& path, const StoreOptions& options = {});
   // Opens an existing database for reading only. Requires the current schema version. In WAL
-  // mode a reader needs the -shm file or write access to the directory (README, "The database").
+  // mode a reader needs the -shm file or write access to the directory (docs/database.md).
   static Result<Store> open_read_only(const std::filesystem::path& path,
                                       const StoreOptions& options = {});
 

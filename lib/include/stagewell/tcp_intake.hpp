@@ -1,7 +1,8 @@
 // The protocol of a `type: tcp` source, for one connection, without the socket: bytes in (any
-// split), lines through the LineIntake (line_intake.hpp), replies out as text. See README,
-// "Readings over TCP". The service's TcpSession (daemon/stagewelld/) owns the socket, its buffers
-// and timers, and hands this object the bytes it reads and the commits it hears of.
+// split), lines through the LineIntake (line_intake.hpp), replies out as text. See
+// docs/tcp-protocol.md, "Readings over TCP". The service's TcpSession (daemon/stagewelld/) owns the
+// socket, its buffers and timers, and hands this object the bytes it reads and the commits it hears
+// of.
 //
 // Client -> service, one line each, ending in "\n" or "\r\n":
 //   auth <secret>       first, when the source has a secret (otherwise allowed and ignored)

@@ -1,5 +1,5 @@
-// A site's `alarms:` (README, "Alarms"): low and high discharge, a sensor gone quiet, and a stage
-// rising fast. Every alarm is off unless its threshold is written.
+// A site's `alarms:` (docs/checks-and-alarms.md, "Alarms"): low and high discharge, a sensor gone
+// quiet, and a stage rising fast. Every alarm is off unless its threshold is written.
 #include <fmt/format.h>
 
 #include "config/key_table.hpp"
