@@ -28,7 +28,7 @@ bool check_database(const std::filesystem::path& database) {
   std::cout << problems->size() << " problem(s) found by SQLite's integrity check\n";
   for (const auto& problem : *problems) std::cout << "    " << problem << '\n';
   std::cout << "  The file is damaged: stop the service, keep a copy of the file, and restore the "
-               "latest backup (README, \"A damaged database\").\n";
+               "latest backup (docs/operations.md, \"A damaged database\").\n";
   return false;
 }
 

@@ -41,7 +41,7 @@ Error to_error(int code, sqlite3* db, std::string_view doing, bool cancelled) {
         ErrorKind::damaged,
         fmt::format("the database file {} is damaged (SQLite, while {}: {}, code {}); "
                     "stop the service, keep a copy of the file, and restore the latest "
-                    "backup (README, \"A damaged database\"); `stagewell check "
+                    "backup (docs/operations.md, \"A damaged database\"); `stagewell check "
                     "--database` lists what SQLite finds",
                     file != nullptr && *file != '\0' ? file : "(unknown)", doing, text, code)};
   }
