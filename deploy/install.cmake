@@ -6,7 +6,8 @@
 #   lib/systemd/system/stagewelld.service          the unit (STAGEWELL_SYSTEMD_UNIT_DIR)
 #   lib/sysusers.d/stagewell.conf                  its user and group (STAGEWELL_SYSUSERS_DIR)
 #   <sysconfdir>/stagewell/stagewell.yaml          the configuration: /etc/stagewell with prefix
-#                                                  /usr (the package), <prefix>/etc/stagewell else
+#                                                  /usr (the package), /etc/opt/NAME/stagewell
+#                                                  with /opt/NAME, <prefix>/etc/stagewell else
 #   share/man/man1, man5, man8                     the manual pages
 #   share/bash-completion/completions/stagewell    command-line completion
 #   share/doc/stagewell/examples                   demo.yaml and reference.yaml
@@ -23,13 +24,22 @@ set(STAGEWELL_SYSUSERS_DIR "lib/sysusers.d" CACHE STRING
 # configured: cpack installs with the prefix /usr whatever prefix the build directory has. So the
 # unit is filled in, and the configuration's directory chosen, when the installation runs. The
 # rule below mirrors GNUInstallDirs' for the configuration directory (/etc for the prefixes / and
-# /usr).
+# /usr, /etc/opt/NAME for /opt/NAME).
 set(unit_template "${CMAKE_CURRENT_SOURCE_DIR}/deploy/stagewelld.service.in")
-set(unit_file "${CMAKE_CURRENT_BINARY_DIR}/deploy/stagewelld.service")
+# One filled-in unit per prefix, so that two installations at once (cpack beside a plain one)
+# never write the same file.
+set(unit_dir "${CMAKE_CURRENT_BINARY_DIR}/deploy/unit-for-prefix")
+if(IS_ABSOLUTE "${STAGEWELL_SYSTEMD_UNIT_DIR}")
+  set(unit_destination "${STAGEWELL_SYSTEMD_UNIT_DIR}")
+else()
+  set(unit_destination "\${prefix}/${STAGEWELL_SYSTEMD_UNIT_DIR}")
+endif()
 install(CODE "
   set(prefix \"\${CMAKE_INSTALL_PREFIX}\")
   if(prefix STREQUAL \"\" OR prefix STREQUAL \"/usr\")  # \"\": the prefix /, its slash removed
     set(stagewell_etc \"/etc/stagewell\")
+  elseif(prefix MATCHES \"^/opt/\")  # FHS: /opt/NAME's configuration is in /etc/opt/NAME
+    set(stagewell_etc \"/etc\${prefix}/stagewell\")
   elseif(IS_ABSOLUTE \"${CMAKE_INSTALL_SYSCONFDIR}\")
     set(stagewell_etc \"${CMAKE_INSTALL_SYSCONFDIR}/stagewell\")
   else()
@@ -41,7 +51,9 @@ install(CODE "
     set(STAGEWELL_UNIT_SBINDIR \"\${prefix}/${CMAKE_INSTALL_SBINDIR}\")
   endif()
   set(STAGEWELL_UNIT_CONFIG \"\${stagewell_etc}/stagewell.yaml\")
-  configure_file(\"${unit_template}\" \"${unit_file}\" @ONLY)
+  configure_file(\"${unit_template}\" \"${unit_dir}\${prefix}/stagewelld.service\" @ONLY)
+  file(INSTALL \"${unit_dir}\${prefix}/stagewelld.service\" DESTINATION \"${unit_destination}\"
+       PERMISSIONS OWNER_READ OWNER_WRITE GROUP_READ WORLD_READ)
   # In the package a conffile (deploy/debian/conffiles), which dpkg keeps when it was edited. A
   # plain installation does the same its own way: an existing file is the administrator's and is
   # never overwritten.
@@ -52,7 +64,6 @@ install(CODE "
          DESTINATION \"\${stagewell_etc}\" PERMISSIONS OWNER_READ OWNER_WRITE GROUP_READ WORLD_READ)
   endif()
 ")
-install(FILES "${unit_file}" DESTINATION "${STAGEWELL_SYSTEMD_UNIT_DIR}")
 install(FILES deploy/stagewell.sysusers DESTINATION "${STAGEWELL_SYSUSERS_DIR}"
         RENAME stagewell.conf)
 

@@ -47,6 +47,8 @@ sysusers_dir="$(cache_value STAGEWELL_SYSUSERS_DIR)"
 sysconf_dir="$(cache_value CMAKE_INSTALL_SYSCONFDIR)"
 if [[ "$prefix" == / || "$prefix" == /usr ]]; then
   config="/etc/stagewell/stagewell.yaml"
+elif [[ "$prefix" == /opt/* ]]; then
+  config="/etc${prefix%/}/stagewell/stagewell.yaml"
 elif [[ "$sysconf_dir" == /* ]]; then
   config="$sysconf_dir/stagewell/stagewell.yaml"
 else
