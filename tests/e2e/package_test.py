@@ -259,6 +259,25 @@ def main():
             # systemd.exec(5): StateDirectory=NAME is /var/lib/NAME.
             checks.check("the user's home is the unit's state directory",
                          user_line.group(2) == "/var/lib/" + settings.get("StateDirectory", ""))
+        # systemd-sysusers itself, writing into a scratch root (--root), never this machine's
+        # /etc: the file must create that user and its group.
+        if shutil.which("systemd-sysusers") and user_line:
+            sysroot = os.path.join(tmp, "sysroot")
+            os.makedirs(os.path.join(sysroot, "etc"))
+            made = run(["systemd-sysusers", f"--root={sysroot}",
+                        root + "/usr/lib/sysusers.d/stagewell.conf"])
+            passwd = open(os.path.join(sysroot, "etc", "passwd")).read() \
+                if made.returncode == 0 else made.stderr
+            group = open(os.path.join(sysroot, "etc", "group")).read() \
+                if made.returncode == 0 else ""
+            entry = next((line.split(":") for line in passwd.splitlines()
+                          if line.startswith(user_line.group(1) + ":")), None)
+            # passwd(5): name:password:UID:GID:GECOS:home:shell.
+            checks.check("systemd-sysusers creates the user with that home",
+                         entry is not None and entry[5] == user_line.group(2), passwd)
+            checks.check("systemd-sysusers creates its group",
+                         any(line.startswith(settings.get("Group", "?") + ":")
+                             for line in group.splitlines()), group)
         checks.check("ConfigurationDirectory is the conffile's directory",
                      "/etc/" + settings.get("ConfigurationDirectory", "")
                      == os.path.dirname(conffiles[0]) if conffiles else False)
