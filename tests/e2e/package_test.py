@@ -19,7 +19,10 @@ import sys
 import tempfile
 import time
 
-import yaml
+try:
+    import yaml  # python3-yaml: reads demo.yaml and the packaged configuration independently
+except ImportError:
+    yaml = None
 
 SKIPPED = 77  # ctest's SKIP_RETURN_CODE for the script tests (tests/CMakeLists.txt)
 
@@ -134,6 +137,8 @@ def main():
 
     missing = [tool for tool in ("cpack", "dpkg-deb", "dpkg", "ldd", "groff", "bash")
                if shutil.which(tool) is None]
+    if yaml is None:
+        missing.append("python3-yaml")
     if missing:
         print(f"SKIPPED: {', '.join(missing)} not installed (deploy/setup.sh --with-tests)")
         return SKIPPED
