@@ -21,6 +21,8 @@ test_packages=(
   chromium chromium-driver       # a real browser for the status page test (headless)
   fonts-dejavu-core              # so that its screenshot shows text
   clang-16 libclang-rt-16-dev    # the checking build: sanitizers and libFuzzer (deploy/test.sh)
+  dpkg-dev                       # dpkg-shlibdeps: the Debian package's Depends (package_test)
+  groff-base python3-yaml        # package_test: renders the manual pages, reads demo.yaml
 )
 
 wanted=("${build_packages[@]}")
