@@ -37,7 +37,8 @@ int run_check(const std::string& config_path, bool database) {
   if (!config) return kInvalidInput;
   const auto system = config->units;
   std::cout << fmt::format("{}: valid; {} site{}, {} units (lengths in {}, discharge in {})\n",
-                           config_path, config->sites.size(), config->sites.size() == 1 ? "" : "s",
+                           config->file.string(), config->sites.size(),
+                           config->sites.size() == 1 ? "" : "s",
                            units::name(system), units::length_symbol(system),
                            units::discharge_symbol(system));
   std::cout << "  database   " << config->database.string() << '\n';

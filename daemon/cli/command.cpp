@@ -1,16 +1,46 @@
 #include "command.hpp"
 
+#include <filesystem>
 #include <iostream>
 
 namespace stagewell::cli {
 
 CLI::Option* add_config_option(CLI::App& command, std::string& path) {
-  return command.add_option("-c,--config", path, "Configuration file (YAML)")
-      ->required()
+  return command
+      .add_option("-c,--config", path,
+                  "Configuration file (YAML). Default: $STAGEWELL_CONFIG, else the first of "
+                  "$XDG_CONFIG_HOME/stagewell/config.yaml and " +
+                      std::string(kSystemConfigFile) + " that exists")
       ->check(CLI::ExistingFile);
 }
 
-std::optional<Config> load_config_or_report(const std::string& path) {
+std::optional<std::string> find_config_or_report(const EnvironmentLookup& environment) {
+  const auto candidates = user_config_candidates(environment);
+  std::error_code ignored;
+  if (candidates.from_variable) {
+    if (std::filesystem::is_regular_file(candidates.paths.front(), ignored)) {
+      return candidates.paths.front().string();
+    }
+    std::cerr << "STAGEWELL_CONFIG names " << candidates.paths.front().string()
+              << ", which is not a file\n";
+    return std::nullopt;
+  }
+  for (const auto& path : candidates.paths) {
+    if (std::filesystem::is_regular_file(path, ignored)) return path.string();
+  }
+  std::cerr << "no configuration: give --config FILE or set STAGEWELL_CONFIG (looked for";
+  for (const auto& path : candidates.paths) std::cerr << ' ' << path.string();
+  std::cerr << ")\n";
+  return std::nullopt;
+}
+
+std::optional<Config> load_config_or_report(const std::string& given) {
+  std::string path = given;
+  if (path.empty()) {
+    auto found = find_config_or_report(process_environment);
+    if (!found) return std::nullopt;
+    path = std::move(*found);
+  }
   auto config = load_config(path);
   if (config) return std::move(*config);
   for (const auto& error : config.error()) std::cerr << error.to_string() << '\n';

@@ -21,10 +21,15 @@ enum Exit : int {
 // What a subcommand registers: the work to run once the command line has parsed.
 using Action = std::function<int()>;
 
-// Every subcommand has `--config FILE`; this adds it.
+// Every subcommand has `--config FILE`; this adds it (optional: see find_config_or_report).
 CLI::Option* add_config_option(CLI::App& command, std::string& path);
 
-// Loads and validates the configuration; on failure prints every error to stderr.
+// The configuration to use when the command line names none (config.hpp,
+// user_config_candidates); nullopt after printing where it looked.
+std::optional<std::string> find_config_or_report(const EnvironmentLookup& environment);
+
+// Loads and validates the configuration at `path`, or the one found when `path` is empty; on
+// failure prints every error to stderr.
 std::optional<Config> load_config_or_report(const std::string& path);
 
 // The site with this id, or prints the known ids to stderr and returns nullptr.

@@ -17,10 +17,10 @@ int main(int argc, char** argv) {
       "Runs in the foreground; SIGTERM/SIGINT stop it cleanly, SIGHUP reloads the configuration."};
   program.name("stagewelld");
   program.set_version_flag("--version", "stagewelld " STAGEWELL_VERSION);
-  std::string config_path;
+  std::string config_path(stagewell::kSystemConfigFile);
   std::string level = "info";
   program.add_option("-c,--config", config_path, "Configuration file (YAML)")
-      ->required()
+      ->capture_default_str()
       ->check(CLI::ExistingFile);
   program.add_option(
       "--log-level", level,

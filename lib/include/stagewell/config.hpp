@@ -14,6 +14,7 @@
 #include <cstdint>
 #include <expected>
 #include <filesystem>
+#include <functional>
 #include <memory>
 #include <optional>
 #include <string>
@@ -231,6 +232,24 @@ using ConfigResult = std::expected<Config, std::vector<ConfigError>>;
 inline constexpr std::size_t kMaxConfigBytes = 1024 * 1024;
 
 ConfigResult load_config(const std::filesystem::path& file);
+
+// Where the programs find their configuration when the command line names none
+// (docs/configuration.md, "Where the configuration is found"):
+//   stagewelld  the system file only;
+//   stagewell   $STAGEWELL_CONFIG when set (and then only it), else the first that exists of
+//               $XDG_CONFIG_HOME/stagewell/config.yaml ($HOME/.config when XDG_CONFIG_HOME is
+//               unset, empty or relative: the XDG Base Directory Specification) and the system
+//               file.
+inline constexpr std::string_view kSystemConfigFile = "/etc/stagewell/stagewell.yaml";
+// A variable of the environment; nullopt when unset.
+using EnvironmentLookup = std::function<std::optional<std::string>(const char* name)>;
+// The process's own environment.
+std::optional<std::string> process_environment(const char* name);
+struct ConfigCandidates {
+  std::vector<std::filesystem::path> paths;  // in order; the first that exists is used
+  bool from_variable = false;                // the one path is $STAGEWELL_CONFIG's
+};
+ConfigCandidates user_config_candidates(const EnvironmentLookup& environment);
 // `file_name` is used in messages; relative paths resolve against `base_dir`.
 ConfigResult parse_config(std::string_view yaml_text, std::string file_name,
                           const std::filesystem::path& base_dir);
