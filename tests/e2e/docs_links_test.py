@@ -13,10 +13,6 @@ import os
 import re
 import sys
 
-# Pages written on another branch that a page here may already link to. Until one exists, a link
-# to it is allowed to point nowhere; once it exists, its anchors are checked like any other.
-PENDING = {"docs/install.md"}
-
 LINK = re.compile(r"!?\[([^\]]*)\]\(([^)\s]+)\)")
 
 
@@ -81,8 +77,7 @@ def main():
             path, _, fragment = target.partition("#")
             dest = os.path.normpath(os.path.join(os.path.dirname(page), path)) if path else page
             if not os.path.exists(dest):
-                if os.path.relpath(dest, root) not in PENDING:
-                    failures.append(f"{where}: no file {os.path.relpath(dest, root)}")
+                failures.append(f"{where}: no file {os.path.relpath(dest, root)}")
                 continue
             if fragment and (not dest.endswith(".md") or fragment not in anchors(read(dest))):
                 failures.append(f"{where}: no heading with the anchor #{fragment}")
