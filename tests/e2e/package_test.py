@@ -19,6 +19,8 @@ import sys
 import tempfile
 import time
 
+import daemon_support as ds
+
 try:
     import yaml  # python3-yaml: reads demo.yaml and the packaged configuration independently
 except ImportError:
@@ -27,22 +29,6 @@ except ImportError:
 SKIPPED = 77  # ctest's SKIP_RETURN_CODE for the script tests (tests/CMakeLists.txt)
 
 
-class Checks:
-    def __init__(self):
-        self.passed = 0
-        self.failed = 0
-
-    def check(self, label, condition, detail=""):
-        if condition:
-            self.passed += 1
-        else:
-            self.failed += 1
-            print(f"FAIL {label}" + (f": {detail}" if detail else ""), flush=True)
-        return condition
-
-    def finish(self):
-        print(f"{self.passed} passed, {self.failed} failed", flush=True)
-        return 1 if self.failed or self.passed == 0 else 0
 
 
 def run(command, **kwargs):
@@ -143,7 +129,7 @@ def main():
         print(f"SKIPPED: {', '.join(missing)} not installed (deploy/setup.sh --with-tests)")
         return SKIPPED
 
-    checks = Checks()
+    checks = ds.Results()
     # The version the programs carry (the project's, compiled in).
     version = run([built_stagewell, "--version"]).stdout.split()[-1]
     commands = subcommands(built_stagewell)

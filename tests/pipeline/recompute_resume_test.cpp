@@ -25,25 +25,6 @@ double manning(double depth, double n) {
   return area * std::pow(radius, 2.0 / 3.0) * std::sqrt(0.001) / n;
 }
 
-// The test configuration with another roughness for site g1 (its `roughness: 0.014` is g1's, the
-// first in the text).
-Config with_roughness(const test::TempDir& dir, double n) {
-  std::string text = "units: metric\ndatabase: " + dir.db().string() + R"(
-sites:
-  - id: g1
-    section: {shape: rectangular, width: 2.0, height: 1.5}
-    roughness: )" + std::to_string(n) + R"(
-    slope: 0.001
-  - id: g2
-    section: {shape: rectangular, width: 2.0, height: 1.5}
-    roughness: 0.014
-    slope: 0.001
-)";
-  auto config = parse_config(text, "test.yaml", dir.path());
-  REQUIRE_MESSAGE(config.has_value(), config.error().front().to_string());
-  return std::move(*config);
-}
-
 std::unique_ptr<Recomputation> plan(Store& store, const Config& config, std::int64_t now) {
   auto planned = Recomputation::plan(store, config, "g1", now);
   REQUIRE_MESSAGE(planned.has_value(), planned.error().message);
@@ -62,7 +43,7 @@ TEST_CASE("a recomputation stopped part-way is carried on, and recorded once") {
   }
   REQUIRE(service.ingestor->commit().has_value());
   Store& store = service.ingestor->store();
-  const Config changed = with_roughness(service.dir, kNewRoughness);
+  const Config changed = test::config_in(service.dir, "", kNewRoughness);
   auto raw = test::raw_connection(service.dir.db());
   const auto rows = [&] { return test::query_int(*raw, "SELECT count(*) FROM recomputation_runs"); };
   const auto unfinished = [&] {

@@ -131,12 +131,13 @@ inline void write_file(const fs::path& path, std::string_view text) {
 
 // Two sites, g1 and g2: rectangular, 2 m wide, n 0.014, S 0.001 (as tests/e2e/tcp_support.py),
 // and the sources in `sources_yaml` (a `sources:` block), if any.
-inline Config config_in(const TempDir& dir, std::string_view sources_yaml = "") {
+inline Config config_in(const TempDir& dir, std::string_view sources_yaml = "",
+                        double g1_roughness = 0.014) {
   const std::string text =
       "units: metric\ndatabase: " + dir.db().string() + "\n" + std::string(sources_yaml) + R"(sites:
   - id: g1
     section: {shape: rectangular, width: 2.0, height: 1.5}
-    roughness: 0.014
+    roughness: )" + fmt::format("{}", g1_roughness) + R"(
     slope: 0.001
   - id: g2
     section: {shape: rectangular, width: 2.0, height: 1.5}
