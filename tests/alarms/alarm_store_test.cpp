@@ -61,7 +61,8 @@ TEST_CASE("the alarms view has exactly the contracted columns") {
   std::vector<std::string> names;
   while (info->step().value()) names.push_back(info->column_text(0));
   CHECK(names ==
-        std::vector<std::string>{"site", "kind", "raised", "cleared", "value", "threshold"});
+        std::vector<std::string>{"site", "kind", "raised", "cleared", "value", "threshold",
+                                          "time_ms"});  // time_ms: schema 8
 }
 
 TEST_CASE("a raised alarm is open in the view until it is cleared") {

@@ -86,9 +86,19 @@ struct StageCorrection {
 
 struct SiteChange;
 
+// Where a site is, in decimal degrees (WGS 84, as a hand-held receiver gives it).
+struct SiteLocation {
+  double latitude = 0.0;   // -90 to 90, north positive
+  double longitude = 0.0;  // -180 to 180, east positive
+};
+
 struct SiteConfig {
   std::string id;
   std::string name;  // the id when not given
+  // Descriptive only (the site_details view, exports): not part of the configuration version, so
+  // editing them recomputes nothing.
+  std::optional<SiteLocation> location;
+  std::optional<std::string> datum;  // what the stage's zero is levelled to, free text
   SectionSpec section;
   std::vector<double> roughness;  // Manning's n, one per subsection (a single n is repeated)
   double slope = 0.0;             // energy slope, length per length

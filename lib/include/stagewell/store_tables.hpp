@@ -16,8 +16,25 @@
 namespace stagewell {
 
 // `sites`: the key every other table uses for a site id.
+// What the site_details view shows of a configured site (schema/008): units as UCUM codes.
+struct SiteSettings {
+  SiteKey site;
+  std::string name;
+  std::string time_zone;
+  std::string stage_unit;
+  std::string length_unit;
+  std::string discharge_unit;
+  std::string volume_unit;
+  std::optional<double> latitude;
+  std::optional<double> longitude;
+  std::optional<std::string> datum;
+};
+
 class SitesTable : store_detail::TableHandle {
  public:
+  // Replaces every site's settings with `sites` (those of the configuration in force), in a
+  // transaction of its own. REQUIRES: read-write; no batch open.
+  Result<void> describe(const std::vector<SiteSettings>& sites);
   // The key of site `id`, added on first use, in a transaction of its own.
   // REQUIRES: read-write; no batch open (a key added inside a batch that rolls back would vanish).
   Result<SiteKey> ensure(std::string_view id);

@@ -55,6 +55,14 @@ std::string_view option_name(Volume unit);
 double to_m3(Volume unit);
 Volume default_volume(System system);  // m3 or ft3
 
+// UCUM codes (The Unified Code for Units of Measure, case-sensitive form), for machine-readable
+// places: the database's views, exports. "m", "cm", "mm", "[ft_i]", "[in_i]" (international foot
+// and inch); discharge "m3/s" or "[ft_i]3/s"; volume "m3" or "[ft_i]3".
+std::string_view ucum(Length unit);
+std::string_view ucum_length(System system);
+std::string_view ucum_discharge(System system);
+std::string_view ucum_volume(System system);
+
 // Lists for error messages and --help: "m, cm, mm, ft, in".
 std::string length_choices();
 std::string flow_choices();

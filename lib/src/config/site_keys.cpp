@@ -113,6 +113,16 @@ void read_checks(const At& at, Context& cx, ChecksSpec& checks, bool with_defaul
 
 namespace {
 
+const std::vector<Key<SiteLocation>>& location_keys() {
+  static const std::vector<Key<SiteLocation>> keys{
+      {"latitude", required(),
+       into(number(Bounds::at_least(-90.0).at_most(90.0)), &SiteLocation::latitude)},
+      {"longitude", required(),
+       into(number(Bounds::at_least(-180.0).at_most(180.0)), &SiteLocation::longitude)},
+  };
+  return keys;
+}
+
 SiteConfig read_site(const At& at, Context& cx, units::System system) {
   SiteConfig site;
   bool section_ok = false;
@@ -135,6 +145,14 @@ SiteConfig read_site(const At& at, Context& cx, units::System system) {
        [](const At& value, Context& c, SiteConfig& s) { read_checks(value, c, s.checks, true); }},
       {"alarms", defaults("{}"),
        [](const At& value, Context& c, SiteConfig& s) { read_alarms(value, c, s.alarms); }},
+      {"location", optional(),
+       [](const At& value, Context& c, SiteConfig& s) {
+         SiteLocation location;
+         const std::size_t errors = c.error_count();
+         read_map(value, location_keys(), c, location);
+         if (c.error_count() == errors) s.location = location;
+       }},
+      {"datum", optional(), into(text(), &SiteConfig::datum)},
       // History (history_keys.cpp), read once the keys above are resolved.
       {"changes", optional(),
        [&changes](const At& value, Context&, SiteConfig&) { changes = value; }},

@@ -121,4 +121,25 @@ std::string length_choices() { return choices(kLengths); }
 std::string flow_choices() { return choices(kFlows); }
 std::string volume_choices() { return choices(kVolumes); }
 
+std::string_view ucum(Length unit) {
+  switch (unit) {
+    case Length::m: return "m";
+    case Length::cm: return "cm";
+    case Length::mm: return "mm";
+    case Length::ft: return "[ft_i]";
+    case Length::in: return "[in_i]";
+  }
+  return "m";
+}
+
+std::string_view ucum_length(System system) {
+  return system == System::metric ? "m" : "[ft_i]";
+}
+std::string_view ucum_discharge(System system) {
+  return system == System::metric ? "m3/s" : "[ft_i]3/s";
+}
+std::string_view ucum_volume(System system) {
+  return system == System::metric ? "m3" : "[ft_i]3";
+}
+
 }  // namespace stagewell::units

@@ -160,6 +160,28 @@ Result<void> restore_alarms(Store& store, SiteKey key, const SiteConfig& config,
 
 }  // namespace
 
+// The site_details rows of the configuration's sites (units as UCUM codes: units.hpp).
+template <typename Sites>
+std::vector<SiteSettings> site_settings(const Config& config, const Sites& sites) {
+  std::vector<SiteSettings> out;
+  for (const auto& site : config.sites) {
+    const auto it = sites.find(site.id);
+    if (it == sites.end()) continue;
+    out.push_back(SiteSettings{
+        .site = it->second->key,
+        .name = site.name,
+        .time_zone = config.timezone,
+        .stage_unit = std::string(units::ucum(site.stage.units)),
+        .length_unit = std::string(units::ucum_length(config.units)),
+        .discharge_unit = std::string(units::ucum_discharge(config.units)),
+        .volume_unit = std::string(units::ucum_volume(config.units)),
+        .latitude = site.location ? std::optional(site.location->latitude) : std::nullopt,
+        .longitude = site.location ? std::optional(site.location->longitude) : std::nullopt,
+        .datum = site.datum});
+  }
+  return out;
+}
+
 Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
                                                  const IngestorOptions& options, Clock clock) {
   auto store = Store::open(config.database, options.store);
@@ -203,6 +225,10 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
       }
     }
     state->sites.emplace(site_config.id, std::move(site));
+  }
+  if (auto described = state->store.sites().describe(site_settings(state->config, state->sites));
+      !described) {
+    return std::unexpected(described.error());
   }
   return std::unique_ptr<Ingestor>(new Ingestor(std::move(state)));
 }
