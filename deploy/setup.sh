@@ -18,6 +18,7 @@ test_packages=(
   doctest-dev
   libbenchmark-dev
   python3-pandas python3-scipy   # independent references for the statistics tests
+  python3-prometheus-client      # an independent reader of the metrics
   chromium chromium-driver       # a real browser for the status page test (headless)
   fonts-dejavu-core              # so that its screenshot shows text
   clang-16 libclang-rt-16-dev    # the checking build: sanitizers and libFuzzer (deploy/test.sh)

@@ -168,7 +168,10 @@ def parse_metrics(text, openmetrics=True):
         except ValueError:
             R.check("sample value is a number", False, line)
             continue
-        family = name[:-len("_total")] if openmetrics and name.endswith("_total") else name
+        family = name
+        for suffix in ("_total", "_info"):  # OpenMetrics: counter and info sample suffixes
+            if openmetrics and name.endswith(suffix) and name[:-len(suffix)] in types:
+                family = name[:-len(suffix)]
         R.check("sample after its family's TYPE", family in types, line)
         if types.get(family) == "counter":
             R.check("counter samples end in _total", name.endswith("_total"), line)
@@ -202,8 +205,39 @@ def check_metrics(port, db, stored_since_start):
             time.time() - last, 0, 10.0)
     R.check("no age for a site without readings",
             ("stagewell_site_reading_age_seconds", 'site="silent"') not in m)
-    R.check("the drop folder's lag is reported", any(
-        k[0] == "stagewell_source_progress_age_seconds" for k in m))
+    folder = os.path.join(os.path.dirname(db), "..", "incoming")
+    folder_label = 'source="folder:' + os.path.normpath(os.path.abspath(folder)) + '"'
+    lags = [k[1] for k in m if k[0] == "stagewell_source_progress_age_seconds"]
+    R.check("the drop folder's lag is reported, once for the folder (not per finished file)",
+            lags == [folder_label], str(lags))
+    # The latest reading of each site, as the database holds it; units as UCUM codes.
+    for site in ("channel", "canal"):
+        rows = db_rows(db, "SELECT discharge, stage FROM discharge WHERE site = ? "
+                           "ORDER BY time_ms DESC LIMIT 1", (site,))
+        if not rows:
+            continue
+        discharge, stage = rows[0]
+        got = m.get(("stagewell_site_latest_discharge", f'site="{site}",unit="m3/s"'))
+        R.check(f"latest discharge of {site} = database", got is not None and discharge is not None
+                and abs(got - discharge) <= 1e-9 * abs(discharge), (got, discharge))
+        unit = db_rows(db, "SELECT stage_unit FROM site_details WHERE site = ?", (site,))[0][0]
+        got = m.get(("stagewell_site_latest_stage", f'site="{site}",unit="{unit}"'))
+        R.check(f"latest stage of {site} = database", got == stage, (got, stage))
+    R.check("build info", any(k[0] == "stagewell_build_info" and k[1].startswith('version="')
+                              and v == 1 for k, v in m.items()), str(list(m)[-3:]))
+    # The Prometheus project's own parser (Debian's python3-prometheus-client) reads it all.
+    from prometheus_client.openmetrics.parser import text_string_to_metric_families
+    families = {f.name: f for f in text_string_to_metric_families(body.decode())}
+    R.check("prometheus_client reads the build info as an info family",
+            families.get("stagewell_build") is not None
+            and families["stagewell_build"].type == "info", str(sorted(families)))
+    latest = families.get("stagewell_site_latest_discharge")
+    R.check("prometheus_client reads the latest discharges", latest is not None and all(
+        (s.labels["site"], s.value) in [(site, db_rows(db, "SELECT discharge FROM discharge "
+                                                       "WHERE site = ? ORDER BY time_ms DESC "
+                                                       "LIMIT 1", (site,))[0][0])
+                                        for site in ("channel", "canal")]
+        for s in latest.samples), str(latest))
     # Prometheus text 0.0.4 when asked for text/plain only.
     status, headers, body = hs.get(port, "/metrics", headers={"Accept": "text/plain"})
     R.check("0.0.4 content type",
@@ -211,6 +245,8 @@ def check_metrics(port, db, stored_since_start):
     text = body.decode()
     R.check("0.0.4: TYPE names the _total sample, no EOF",
             "# TYPE stagewell_readings_stored_total counter" in text and "# EOF" not in text)
+    R.check("0.0.4: build info as a gauge named _info (that format has no info type)",
+            "# TYPE stagewell_build_info gauge" in text)
     return m
 
 

@@ -4,6 +4,11 @@
 // sample with it, has UNIT lines, and ends with `# EOF`; 0.0.4 names the family as the sample.
 #include <fmt/format.h>
 
+#include <algorithm>
+#include <map>
+#include <utility>
+#include <vector>
+
 #include <filesystem>
 #include <string>
 
@@ -65,20 +70,25 @@ class Writer {
  public:
   explicit Writer(bool openmetrics) : openmetrics_(openmetrics) {}
 
-  // A family: `name` without `_total` for a counter; `unit` empty or the name's last word.
+  // A family: `name` without `_total` for a counter, without `_info` for an info family (a
+  // gauge named name_info in the older text format, which has no info type); `unit` empty or the
+  // name's last word.
   void family(std::string_view name, std::string_view type, std::string_view help,
               std::string_view unit = {}) {
     counter_ = type == "counter";
+    info_ = type == "info";
     name_ = std::string(name);
-    const std::string declared = counter_ && !openmetrics_ ? name_ + "_total" : name_;
-    text_ += fmt::format("# TYPE {} {}\n", declared, type);
+    std::string declared = name_;
+    if (!openmetrics_ && counter_) declared += "_total";
+    if (!openmetrics_ && info_) declared += "_info";
+    text_ += fmt::format("# TYPE {} {}\n", declared, info_ && !openmetrics_ ? "gauge" : type);
     if (openmetrics_ && !unit.empty()) text_ += fmt::format("# UNIT {} {}\n", declared, unit);
     text_ += fmt::format("# HELP {} {}\n", declared, help);
   }
 
   // One sample of the current family; `labels` already written as name="value" pairs.
   void sample(std::string_view labels, double value) {
-    const std::string name = counter_ ? name_ + "_total" : name_;
+    const std::string name = counter_ ? name_ + "_total" : info_ ? name_ + "_info" : name_;
     const std::string shown = value == static_cast<double>(static_cast<std::int64_t>(value))
                                   ? fmt::format("{}", static_cast<std::int64_t>(value))
                                   : fmt::format("{}", value);
@@ -94,6 +104,7 @@ class Writer {
  private:
   bool openmetrics_;
   bool counter_ = false;
+  bool info_ = false;
   std::string name_;
   std::string text_;
 };
@@ -106,6 +117,26 @@ double file_bytes(const std::filesystem::path& path) {
   std::error_code ec;
   const auto size = std::filesystem::file_size(path, ec);
   return ec ? 0.0 : static_cast<double>(size);
+}
+
+// One lag per source the service reads: a drop folder's files are folded into their folder
+// ("folder:/srv/in/a.csv" -> "folder:/srv/in"), so that a finished file leaves no series of its
+// own whose age grows forever; a followed file ("tail:...") and a tcp listener ("tcp ...") are
+// their own. The newest input of each.
+std::map<std::string, std::int64_t> source_lags(const std::vector<SourceProgress>& rows) {
+  std::map<std::string, std::int64_t> out;
+  for (const SourceProgress& row : rows) {
+    std::string source = row.source;
+    if (source.starts_with("folder:")) {
+      const auto slash = source.rfind('/');
+      if (slash != std::string::npos && slash > std::string_view("folder:").size()) {
+        source.resize(slash);
+      }
+    }
+    auto [it, added] = out.emplace(std::move(source), row.progress.updated_ms);
+    if (!added) it->second = std::max(it->second, row.progress.updated_ms);
+  }
+  return out;
 }
 
 constexpr std::string_view kExtraRejectKinds[] = {"bad_header", "conflict"};
@@ -160,13 +191,13 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
   // a tcp listener writes its row, without an offset, when lines arrive); a source that delivers
   // nothing new grows old. The most recent sources (kMaxSources).
   out.family("stagewell_source_progress_age_seconds", "gauge",
-             "Seconds since each source (file or tcp listener) last had input committed.",
+             "Seconds since each source (drop folder, followed file or tcp listener) last had "
+             "input committed.",
              "seconds");
   auto progress = state.store.progress(kMaxSources);
   if (!progress) return std::unexpected(progress.error());
-  for (const SourceProgress& source : *progress) {
-    out.sample(label("source", source.source),
-               static_cast<double>(now_ms - source.progress.updated_ms) / 1000.0);
+  for (const auto& [source, updated_ms] : source_lags(*progress)) {
+    out.sample(label("source", source), static_cast<double>(now_ms - updated_ms) / 1000.0);
   }
 
   out.family("stagewell_database_size_bytes", "gauge",
@@ -185,6 +216,29 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
     if (!*latest) continue;
     out.sample(label("site", site.id), static_cast<double>(now_ms - (*latest)->time_ms) / 1000.0);
   }
+
+  // What a dashboard plots: each site's latest reading, with its unit as a UCUM code.
+  out.family("stagewell_site_latest_discharge", "gauge",
+             "Discharge of each site's latest reading (absent when it has none: out of range).");
+  std::vector<std::pair<std::string, double>> stages;
+  for (const auto& site : state.config.sites) {
+    auto key = site_key(state, site.id);
+    if (!key) return std::unexpected(key.error());
+    if (!*key) continue;
+    auto latest = state.store.latest_reading(**key);
+    if (!latest) return std::unexpected(latest.error());
+    if (!*latest) continue;
+    stages.emplace_back(label("site", site.id) + "," +
+                            label("unit", units::ucum(site.stage.units)),
+                        (*latest)->stage);
+    if (!(*latest)->discharge) continue;
+    out.sample(label("site", site.id) + "," +
+                   label("unit", units::ucum_discharge(state.config.units)),
+               *(*latest)->discharge);
+  }
+  out.family("stagewell_site_latest_stage", "gauge",
+             "Stage of each site's latest reading, as the sensor wrote it.");
+  for (const auto& [labels, stage] : stages) out.sample(labels, stage);
 
   auto alarms = state.store.has_alarms();
   if (!alarms) return std::unexpected(alarms.error());
@@ -214,6 +268,8 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
   out.family("stagewell_start_time_seconds", "gauge", "When the service started (Unix time).",
              "seconds");
   out.sample("", static_cast<double>(live.started_ms) / 1000.0);
+  out.family("stagewell_build", "info", "The version of the service answering.");
+  out.sample(label("version", STAGEWELL_VERSION), 1.0);
 
   HttpAnswer answer;
   answer.content_type = openmetrics ? "application/openmetrics-text; version=1.0.0; charset=utf-8"
