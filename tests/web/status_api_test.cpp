@@ -69,7 +69,8 @@ TEST_CASE("routes and methods") {
   CHECK(f.get("/api/sites/weir/readings").status == 200);
   CHECK(f.get("/api/nothing").status == 404);
   CHECK(f.get("/api/sites/nowhere/readings").status == 404);
-  CHECK(f.get("/api/sites/weir").status == 404);
+  CHECK(f.get("/api/sites/weir").status == 200);  // one site (below)
+  CHECK(f.get("/api/sites/nowhere").status == 404);
   CHECK(f.get("/api/sites", "HEAD").status == 200);
   for (const char* method : {"POST", "PUT", "DELETE", "OPTIONS", "TRACE"}) {
     CAPTURE(method);
@@ -126,6 +127,72 @@ TEST_CASE("readings carry the stored numbers, both ends of the range included") 
   CHECK(latest["time"] == "2026-05-01T12:00:00Z");
   CHECK(latest["age_s"].get<double>() == 30.0);
   CHECK(latest["flags"] == json::array({"spike"}));
+}
+
+TEST_CASE("/api/sites/{id}: the site with its units as UCUM codes and its latest reading") {
+  Fixture f;
+  const auto answer = f.get("/api/sites/weir");
+  REQUIRE(answer.status == 200);
+  const auto site = json::parse(answer.body)["site"];
+  CHECK(site["id"] == "weir");
+  // UCUM (The Unified Code for Units of Measure): m, m3/s, m3 for a metric configuration.
+  CHECK(site["unit_codes"] ==
+        json{{"stage", "m"}, {"depth", "m"}, {"discharge", "m3/s"}, {"volume", "m3"}});
+  CHECK(site["location"].is_null());
+  CHECK(site["latest"]["time"] == "2026-05-01T12:00:00Z");
+  CHECK(site["latest"]["discharge"].get<double>() == 2.5);
+  // The same entry as in the list.
+  CHECK(json::parse(f.get("/api/sites").body)["sites"][0] == site);
+  CHECK(f.get("/api/sites/weir?x=1").status == 400);
+}
+
+TEST_CASE("a '+' in a query value is a plus: an offset needs no escaping (RFC 3986, 3.4)") {
+  Fixture f;
+  // 13:58+02:00 is 11:58Z: the same two readings as the test above.
+  for (const char* target : {"/api/sites/weir/readings?from=2026-05-01T13:58:00+02:00"
+                             "&to=2026-05-01T13:59:00+02:00",
+                             "/api/sites/weir/readings?from=2026-05-01T13:58:00%2B02:00"
+                             "&to=2026-05-01T13:59:00%2B02:00"}) {
+    CAPTURE(target);
+    const auto answer = f.get(target);
+    REQUIRE(answer.status == 200);
+    CHECK(json::parse(answer.body)["readings"].size() == 2);
+  }
+}
+
+TEST_CASE("a truncated readings answer links to the rest") {
+  stagewell::test::TempDir dir;
+  {
+    auto store = stagewell::test::open_store(dir.db());
+    const auto site = stagewell::test::add_site(store, "weir");
+    auto batch = store.begin();
+    REQUIRE(batch);
+    for (std::int64_t i = 0; i <= stagewell::kMaxReadingsPerRequest; ++i) {
+      REQUIRE(batch->insert(stagewell::test::reading(site, kNoon - 86'000'000 + i * 1000, 0.3)));
+    }
+    REQUIRE(batch->commit());
+  }
+  const std::string yaml = "units: metric\ndatabase: " + dir.db().string() +
+                           "\nsites:\n  - id: weir\n"
+                           "    section: {shape: rectangular, width: 1.0, height: 1.0}\n"
+                           "    roughness: 0.013\n    slope: 0.001\n";
+  auto config = stagewell::parse_config(yaml, "test.yaml", dir.path());
+  REQUIRE(config.has_value());
+  auto api = StatusApi::open(*config, [] { return stagewell::LiveFigures{}; });
+  REQUIRE(api.has_value());
+  const auto first = json::parse((*api)->answer("GET", "/api/sites/weir/readings", "", kNoon).body);
+  CHECK(first["truncated"] == true);
+  REQUIRE(first["readings"].size() == static_cast<std::size_t>(stagewell::kMaxReadingsPerRequest));
+  // The link starts at the first reading not sent, and keeps the end of the range.
+  const std::string next = first["next"];
+  CHECK(next == "/api/sites/weir/readings?from=" +
+                    stagewell::format_timestamp_utc(kNoon - 86'000'000 +
+                                                    stagewell::kMaxReadingsPerRequest * 1000) +
+                    "&to=" + first["to"].get<std::string>());
+  const auto rest = json::parse((*api)->answer("GET", next, "", kNoon).body);
+  CHECK(rest["truncated"] == false);
+  CHECK(rest["next"].is_null());
+  CHECK(rest["readings"].size() == 1);
 }
 
 TEST_CASE("bad ranges") {

@@ -45,6 +45,7 @@ Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& si
 
   json readings = json::array();
   bool truncated = false;
+  json next = nullptr;
   if (*key) {
     // One more than the limit: whether there were more to send.
     auto stored = state.store.readings(**key, from_ms, to_ms, kMaxReadingsPerRequest + 1);
@@ -52,6 +53,10 @@ Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& si
     for (const StoredReading& reading : *stored) {
       if (static_cast<std::int64_t>(readings.size()) == kMaxReadingsPerRequest) {
         truncated = true;
+        // The rest of the range, from the first reading not sent (site ids and UTC times need
+        // no escaping in a target: letters, digits, "_.-:" only).
+        next = fmt::format("/api/sites/{}/readings?from={}&to={}", site.id,
+                           format_timestamp_utc(reading.time_ms), format_timestamp_utc(to_ms));
         break;
       }
       readings.push_back({{"time", format_timestamp_utc(reading.time_ms)},
@@ -68,6 +73,7 @@ Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& si
                   {"depth_unit", units::length_symbol(state.config.units)},
                   {"discharge_unit", units::discharge_symbol(state.config.units)},
                   {"truncated", truncated},
+                  {"next", std::move(next)},
                   {"readings", std::move(readings)}};
   return json_answer(200, to_text(body));
 }

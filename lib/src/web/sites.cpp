@@ -1,5 +1,5 @@
-// /api/sites: every configured site with its latest reading, today's volume so far and its open
-// alarms. One primary-key lookup per site and table: bounded whatever the database's size.
+// /api/sites and /api/sites/{id}: every configured site (or one) with its units, location, latest
+// reading, today's volume so far and its open alarms. One primary-key lookup per site and table: bounded whatever the database's size.
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -59,52 +59,87 @@ Result<std::map<std::string, json>> open_alarms(StatusApi::State& state) {
   return by_site;
 }
 
+// One site as /api/sites lists it and /api/sites/{id} answers it.
+Result<json> site_entry(StatusApi::State& state, const SiteConfig& site,
+                        const std::map<std::string, json>& alarms, daily::Day today,
+                        std::int64_t now_ms) {
+  const auto system = state.config.units;
+  json entry{
+      {"id", site.id},
+      {"name", site.name},
+      {"stage_unit", units::symbol(site.stage.units)},
+      {"depth_unit", units::length_symbol(system)},
+      {"discharge_unit", units::discharge_symbol(system)},
+      {"volume_unit", units::volume_symbol(system)},
+      // The same units as UCUM codes, for programs (The Unified Code for Units of Measure).
+      {"unit_codes",
+       {{"stage", units::ucum(site.stage.units)},
+        {"depth", units::ucum_length(system)},
+        {"discharge", units::ucum_discharge(system)},
+        {"volume", units::ucum_volume(system)}}},
+      {"location", site.location ? json{{"latitude", site.location->latitude},
+                                        {"longitude", site.location->longitude}}
+                                 : json(nullptr)},
+      {"datum", site.datum ? json(*site.datum) : json(nullptr)},
+      {"max_gap_s", site.checks.max_gap_s},
+      {"latest", nullptr},
+      {"today",
+       {{"day", daily::format_day(today)}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}}},
+      {"alarms", json::array()}};
+  auto key = site_key(state, site.id);
+  if (!key) return std::unexpected(key.error());
+  if (*key) {
+    auto latest = latest_reading(state, **key, now_ms);
+    if (!latest) return std::unexpected(latest.error());
+    entry["latest"] = std::move(*latest);
+    auto figures = day_figures(state, **key, today);
+    if (!figures) return std::unexpected(figures.error());
+    entry["today"] = std::move(*figures);
+  }
+  if (auto found = alarms.find(site.id); found != alarms.end()) entry["alarms"] = found->second;
+  return entry;
+}
+
+// What every answer about sites starts with.
+json envelope(StatusApi::State& state, daily::Day today, bool alarms_known, std::int64_t now_ms) {
+  return json{{"now", format_timestamp_utc(now_ms)},
+              {"timezone", state.config.timezone},
+              {"today", daily::format_day(today)},
+              {"units", units::name(state.config.units)},
+              {"alarms_available", alarms_known},
+              {"caution", kDischargeCaution}};
+}
+
 }  // namespace
 
 Result<HttpAnswer> sites_answer(StatusApi::State& state, std::int64_t now_ms) {
-  const auto system = state.config.units;
   const daily::Day today = local_day(state, now_ms);
-  const std::string today_text = daily::format_day(today);
   auto alarms = open_alarms(state);
   if (!alarms) return std::unexpected(alarms.error());
   auto alarms_known = state.store.has_alarms();
   if (!alarms_known) return std::unexpected(alarms_known.error());
-
   json sites = json::array();
   for (const auto& site : state.config.sites) {
-    json entry{
-        {"id", site.id},
-        {"name", site.name},
-        {"stage_unit", units::symbol(site.stage.units)},
-        {"depth_unit", units::length_symbol(system)},
-        {"discharge_unit", units::discharge_symbol(system)},
-        {"volume_unit", units::volume_symbol(system)},
-        {"max_gap_s", site.checks.max_gap_s},
-        {"latest", nullptr},
-        {"today", {{"day", today_text}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}}},
-        {"alarms", json::array()}};
-    auto key = site_key(state, site.id);
-    if (!key) return std::unexpected(key.error());
-    if (*key) {
-      auto latest = latest_reading(state, **key, now_ms);
-      if (!latest) return std::unexpected(latest.error());
-      entry["latest"] = std::move(*latest);
-      auto figures = day_figures(state, **key, today);
-      if (!figures) return std::unexpected(figures.error());
-      entry["today"] = std::move(*figures);
-    }
-    if (auto found = alarms->find(site.id); found != alarms->end()) {
-      entry["alarms"] = found->second;
-    }
-    sites.push_back(std::move(entry));
+    auto entry = site_entry(state, site, *alarms, today, now_ms);
+    if (!entry) return std::unexpected(entry.error());
+    sites.push_back(std::move(*entry));
   }
-  const json body{{"now", format_timestamp_utc(now_ms)},
-                  {"timezone", state.config.timezone},
-                  {"today", today_text},
-                  {"units", units::name(system)},
-                  {"alarms_available", *alarms_known},
-                  {"caution", kDischargeCaution},
-                  {"sites", std::move(sites)}};
+  json body = envelope(state, today, *alarms_known, now_ms);
+  body["sites"] = std::move(sites);
+  return json_answer(200, to_text(body));
+}
+
+Result<HttpAnswer> site_answer(StatusApi::State& state, const SiteConfig& site,
+                               std::int64_t now_ms) {
+  const daily::Day today = local_day(state, now_ms);
+  auto alarms = open_alarms(state);
+  if (!alarms) return std::unexpected(alarms.error());
+  auto alarms_known = state.store.has_alarms();
+  if (!alarms_known) return std::unexpected(alarms_known.error());
+  auto entry = site_entry(state, site, *alarms, today, now_ms);
+  if (!entry) return std::unexpected(entry.error());
+  json body = envelope(state, today, *alarms_known, now_ms);
+  body["site"] = std::move(*entry);
   return json_answer(200, to_text(body));
 }
 

@@ -49,6 +49,8 @@ std::string to_text(const nlohmann::json& value);
 // The answers. Errors in the request are answered here (400, 404); a Result error is a failed
 // query (500).
 Result<HttpAnswer> sites_answer(StatusApi::State& state, std::int64_t now_ms);
+Result<HttpAnswer> site_answer(StatusApi::State& state, const SiteConfig& site,
+                               std::int64_t now_ms);
 Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& site,
                                    const Target& target, std::int64_t now_ms);
 Result<HttpAnswer> daily_answer(StatusApi::State& state, const SiteConfig& site,

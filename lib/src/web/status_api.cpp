@@ -112,6 +112,11 @@ HttpAnswer StatusApi::answer(std::string_view method, std::string_view target,
       if (segments.size() == 2) {
         if (auto bad = unexpected_params({})) return *bad;
         result = sites_answer(*state_, now_ms);
+      } else if (segments.size() == 3) {
+        const SiteConfig* site = state_->config.find_site(segments[2]);
+        if (site == nullptr) return json_error(404, fmt::format("no site \"{}\"", segments[2]));
+        if (auto bad = unexpected_params({})) return *bad;
+        result = site_answer(*state_, *site, now_ms);
       } else if (segments.size() == 4) {
         const SiteConfig* site = state_->config.find_site(segments[2]);
         if (site == nullptr) return json_error(404, fmt::format("no site \"{}\"", segments[2]));

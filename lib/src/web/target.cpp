@@ -13,7 +13,9 @@ int hex_value(char c) {
   return -1;
 }
 
-// Decodes %XX escapes (and '+' as a space in a query). A decoded '/' or '\' in a path segment is
+// Decodes %XX escapes. '+' stays '+' (RFC 3986 gives it no meaning in a query; "+ for a space"
+// belongs to HTML forms, which this API does not take), so that an offset written as is,
+// from=2026-05-01T00:00:00+02:00, means what it says. A decoded '/' or '\' in a path segment is
 // refused: it would let one segment pass for two.
 Result<std::string> decode(std::string_view text, bool in_query) {
   std::string out;
@@ -36,8 +38,6 @@ Result<std::string> decode(std::string_view text, bool in_query) {
       }
       out += decoded;
       i += 2;
-    } else if (c == '+' && in_query) {
-      out += ' ';
     } else {
       out += c;
     }
