@@ -50,7 +50,7 @@ Result<std::string> duration(Report& r, const std::string& period) {
   spec.title = site_title(r.site);
   spec.period = period;
   spec.units = r.units;
-  return plot::duration_svg(stats::flow_duration(*days), spec);
+  return plot::duration_svg(stats::flow_duration(*days, r.from, r.to), spec);
 }
 
 int run_plot(const PlotOptions& options) {

@@ -133,7 +133,7 @@ void print_text(const Report& r, const Computed& c) {
                             kMonthNames[r.config.daily.water_year_start_month - 1]),
                 c.water_years, true);
   std::cout << fmt::format(
-      "\nFlow duration: daily means of {} complete days ({} days with missing time left out)\n",
+      "\nFlow duration: daily means of {} complete days ({} days with missing time or no figures left out)\n",
       c.duration.curve.size(), c.duration.days_left_out);
   for (std::size_t k = 0; k < stats::kReportedPercents.size(); ++k) {
     const auto q = u.flow_of(c.duration.exceeded[k]);
@@ -161,7 +161,7 @@ int run_stats(const StatsOptions& options) {
                           calendar);
   c.water_years = stats::totals(*days, report->from, report->to, stats::PeriodKind::water_year,
                                 start, calendar);
-  c.duration = stats::flow_duration(*days);
+  c.duration = stats::flow_duration(*days, report->from, report->to);
   if (options.json) {
     print_json(*report, c);
   } else {

@@ -43,6 +43,28 @@ TEST_CASE("Q(p): linear between the plotting positions, nothing beyond the recor
   CHECK_FALSE(flow_exceeded({}, 0.5).has_value());
 }
 
+TEST_CASE("days of the range without any figures are left out too, and counted") {
+  // Four days with figures (March 1-4, the 4th incomplete) in a range of March 1-31: 31 days, 3
+  // complete, so 28 left out [C]; the curve is that of the 3 complete days whatever the range.
+  std::vector<daily::DayFigures> days;
+  for (int i = 0; i < 4; ++i) {
+    daily::DayFigures d;
+    d.day = daily::Day(2026, 3, 1 + i);
+    d.start_ms = i * 86'400'000LL;
+    d.end_ms = d.start_ms + 86'400'000LL;
+    d.covered_ms = i == 3 ? 3'600'000 : 86'400'000;
+    d.mean_discharge = 1.0 + i;
+    days.push_back(d);
+  }
+  const auto month = flow_duration(days, daily::Day(2026, 3, 1), daily::Day(2026, 3, 31));
+  CHECK(month.days_left_out == 28);
+  CHECK(month.curve.size() == 3);
+  // A range that cuts the figures: only its own days count (March 2-3: both complete).
+  const auto two = flow_duration(days, daily::Day(2026, 3, 2), daily::Day(2026, 3, 3));
+  CHECK(two.days_left_out == 0);
+  CHECK(two.curve.size() == 2);
+}
+
 TEST_CASE("the duration curve uses complete days only, from the largest mean down") {
   std::vector<daily::DayFigures> days;
   const double means[] = {4.0, 1.0, 3.0, 2.0};
@@ -55,7 +77,7 @@ TEST_CASE("the duration curve uses complete days only, from the largest mean dow
     d.mean_discharge = means[i];
     days.push_back(d);
   }
-  const auto duration = flow_duration(days);
+  const auto duration = flow_duration(days, daily::Day(2026, 3, 1), daily::Day(2026, 3, 4));
   CHECK(duration.days_left_out == 1);
   REQUIRE(duration.curve.size() == 3);
   CHECK(duration.curve[0].mean_discharge == 4.0);

@@ -59,19 +59,27 @@ TEST_CASE("water years start in the configured month and are named by the year t
   CHECK(january[0].label == "WY2025");
 }
 
-TEST_CASE("monthly totals add the days' volumes; coverage counts missing time") {
+TEST_CASE("monthly totals add the days' volumes; coverage is of the whole month") {
   const auto days = sample_days();
   const auto months =
       totals(days, Day(2025, 9, 20), Day(2025, 10, 15), PeriodKind::month, 10, utc());
   REQUIRE(months.size() == 2);
-  // September 20-30: 7 days at 10 and 4 at 1 (Sep 27-30), 86,400 s each [C].
+  // September 20-30: 7 days at 10 and 4 at 1 (Sep 27-30), 86,400 s each [C]. The range cuts
+  // September, but its coverage is of the whole month: 11 covered days of 30 [C].
   CHECK(months[0].label == "2025-09");
   CHECK(months[0].volume == doctest::Approx((7 * 10.0 + 4 * 1.0) * 86400));
-  CHECK(months[0].coverage() == 1.0);
+  CHECK(months[0].coverage() == doctest::Approx(11.0 / 30));
+  CHECK(months[0].length_ms == 30 * kDayMs);
   CHECK(*months[0].mean_discharge == doctest::Approx(74.0 / 11));
-  // October 1-15: 3 days at 1, 11 at 10, and Oct 10 at 10 for half a day [C].
+  // October 1-15: 3 days at 1, 11 at 10, and Oct 10 at 10 for half a day [C]; 14.5 covered days
+  // of October's 31 [C].
   CHECK(months[1].volume == doctest::Approx((3 * 1.0 + 11 * 10.0 + 0.5 * 10.0) * 86400));
-  CHECK(months[1].coverage() == doctest::Approx(14.5 / 15));
+  CHECK(months[1].coverage() == doctest::Approx(14.5 / 31));
+  // Asked for September alone, the same coverage: it never depends on the range [C].
+  const auto september =
+      totals(days, Day(2025, 9, 1), Day(2025, 9, 30), PeriodKind::month, 10, utc());
+  REQUIRE(september.size() == 1);
+  CHECK(september[0].coverage() == doctest::Approx(11.0 / 30));
   CHECK(months[1].days_with_figures == 15);
   CHECK(*months[1].peak_discharge == 99.0);
   CHECK(*months[1].peak_time_ms == utc().start_ms(Day(2025, 10, 12)) + 3'600'000);

@@ -5,7 +5,9 @@ Invented hourly readings over 14 months in America/Denver, with whole days missi
 holes, and a few days of constant stage (equal daily means: ties). The references:
   totals          pandas groupby on month, calendar year and water year (October start, named by
                   the year it ends in, USGS usage), volumes summed, coverage = covered time /
-                  length of the period, day lengths from pandas.date_range in the zone;
+                  length of the whole period (also where the range cuts it), day lengths from
+                  pandas.date_range in the zone; days left out = days of the range less the
+                  complete ones;
   flow duration   scipy.stats.rankdata(-x, method="average") / (n + 1) on the complete days
                   (Weibull plotting position, Vogel and Fennessey 1994, ties at their mean rank),
                   and Q(p) = numpy.quantile(x, 1 - p, method="weibull") (Hyndman and Fan type 6)
@@ -72,6 +74,24 @@ def period_key(day, kind):
     return f"WY{year + (1 if month >= 10 else 0):04d}"
 
 
+def whole_period(label, kind):
+    """First and last day (text) of the whole period a label names, whatever the range."""
+    if kind == "months":
+        year, month = int(label[:4]), int(label[5:7])
+        end = pd.Timestamp(year=year, month=month, day=1) + pd.offsets.MonthEnd(0)
+        return f"{label}-01", end.strftime("%Y-%m-%d")
+    if kind == "calendar_years":
+        return f"{label}-01-01", f"{label}-12-31"
+    year = int(label[2:])  # WYnnnn: October of the year before to September
+    return f"{year - 1:04d}-10-01", f"{year:04d}-09-30"
+
+
+def period_length_ms(label, kind):
+    """The whole period's length in ms: local days of the zone from pandas.date_range."""
+    first, last = whole_period(label, kind)
+    return sum(end - start for start, end in ds.day_bounds(first, last, ZONE).values())
+
+
 def reference(view_rows, first, last):
     bounds = ds.day_bounds(first, last, ZONE)
     days = list(bounds)
@@ -108,7 +128,7 @@ def reference(view_rows, first, last):
                 peak_time = g["peak_time"].iloc[int(np.nanargmax(g["peak"].values))]
             periods.append({
                 "period": label, "first_day": g["day"].iloc[0], "last_day": g["day"].iloc[-1],
-                "volume": volume, "coverage": covered / g["length"].sum(),
+                "volume": volume, "coverage": covered / period_length_ms(label, kind),
                 "mean_discharge": volume / (covered / 1000.0) if covered > 0 else None,
                 "days_with_figures": int(g["has"].sum()),
                 "min_7day_mean": None if np.isnan(low) else low, "min_7day_first_day": low_first,
@@ -126,7 +146,7 @@ def reference(view_rows, first, last):
         inside = n > 0 and 1 / (n + 1) <= p <= n / (n + 1)
         out["exceeded"][percent] = (float(np.quantile(x, 1 - p, method="weibull")) if inside
                                     else None)
-    out["left_out"] = int(frame["has"].sum()) - n
+    out["left_out"] = len(days) - n  # every day of the range without complete figures
     return out
 
 

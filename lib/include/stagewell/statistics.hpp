@@ -4,12 +4,14 @@
 // Definitions (docs/daily-and-statistics.md, "`stagewell stats`", copies these):
 //   complete day   a day whose coverage is 1 (no missing time).
 //   totals         per period (month, calendar year, water year), over the period's days that lie
-//                  in the range asked for: volume = the sum of the days' volumes; coverage =
-//                  covered time / length of that part of the period; mean discharge = volume /
-//                  covered time. Days without figures count as missing time.
+//                  in the range asked for: volume = the sum of the days' volumes; mean discharge
+//                  = volume / covered time; coverage = covered time / length of the whole period
+//                  (never of the range: a month with one day of data is 1/30 covered however the
+//                  range cuts it). Days without figures count as missing time.
 //   water year     starts on the first day of DailySpec::water_year_start_month and is named by
 //                  the calendar year it ends in (start October: WY2026 = 2025-10-01..2026-09-30).
-//   flow duration  the mean discharges of the complete days in the range. Exceedance by the
+//   flow duration  the mean discharges of the complete days in the range; every other day of
+//                  the range, with figures or none, is counted as left out. Exceedance by the
 //                  Weibull plotting position p = m / (n + 1), m the rank from the largest (1) to
 //                  the smallest (n); equal flows share the mean of their ranks, so every day of a
 //                  tie has the same p (Vogel and Fennessey, "Flow-duration curves I", ASCE J. Water
@@ -59,12 +61,12 @@ struct DurationPoint {
 
 struct FlowDuration {
   std::vector<DurationPoint> curve;  // from the largest flow to the smallest
-  std::int64_t days_left_out = 0;    // days with figures that are not complete
+  std::int64_t days_left_out = 0;    // days of the range not complete (or without figures)
   std::array<std::optional<double>, kReportedPercents.size()> exceeded;  // Q at each percent
 };
 
-// REQUIRES: `days` in day order.
-FlowDuration flow_duration(std::span<const DayFigures> days);
+// The complete days of `days` within [from, to]. REQUIRES: `days` in day order; from <= to.
+FlowDuration flow_duration(std::span<const DayFigures> days, Day from, Day to);
 
 enum class PeriodKind { month, calendar_year, water_year };
 
@@ -74,7 +76,7 @@ struct PeriodTotal {
   Day last;
   double volume = 0.0;  // m^3 or ft^3
   std::int64_t covered_ms = 0;
-  std::int64_t length_ms = 0;
+  std::int64_t length_ms = 0;  // of the whole period, also where the range cuts it
   std::int64_t days_with_figures = 0;
   std::optional<double> mean_discharge;  // volume / covered time
   std::optional<double> min_7day_mean;   // lowest 7-day mean of complete days

@@ -43,18 +43,17 @@ std::optional<double> flow_exceeded(std::span<const double> flows, double p) {
   return sorted[i - 1] + fraction * (sorted[i] - sorted[i - 1]);
 }
 
-FlowDuration flow_duration(std::span<const DayFigures> days) {
+FlowDuration flow_duration(std::span<const DayFigures> days, Day from, Day to) {
   FlowDuration out;
   std::vector<std::optional<double>> flows;
   std::vector<Day> flow_days;
   for (const DayFigures& day : days) {
-    if (!day.complete() || !day.mean_discharge) {
-      ++out.days_left_out;
-      continue;
-    }
+    if (day.day < from || day.day > to || !day.complete() || !day.mean_discharge) continue;
     flows.push_back(day.mean_discharge);
     flow_days.push_back(day.day);
   }
+  out.days_left_out = static_cast<std::int64_t>(to - from) + 1 -
+                      static_cast<std::int64_t>(flows.size());
   const auto p = exceedance_probabilities(flows);
   for (std::size_t i = 0; i < flows.size(); ++i) {
     out.curve.push_back({flow_days[i], *flows[i], *p[i]});

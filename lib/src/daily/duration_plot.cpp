@@ -92,7 +92,7 @@ std::string duration_svg(const stats::FlowDuration& duration, const DurationSpec
            Anchor::start, kFontSize - 1);
   std::string note = fmt::format(
       "Weibull plotting position m/(n+1), ties at their mean rank; {} "
-      "days with some missing time left out",
+      "days with missing time or no figures left out",
       duration.days_left_out);
   if (zero_days > 0) note += fmt::format("; {} days of zero flow not shown (log scale)", zero_days);
   svg.text({kLeft, panel.bottom() + 84}, note, Anchor::start, kFontSize - 1);

@@ -62,13 +62,14 @@ void find_low_flow(std::span<const DayFigures> days, PeriodTotal& out) {
   }
 }
 
-PeriodTotal total_of(std::span<const DayFigures> days, const Period& period,
+// `period` is the part within the range; `whole` the period itself, whose length coverage is of.
+PeriodTotal total_of(std::span<const DayFigures> days, const Period& period, const Period& whole,
                      const daily::DayCalendar& calendar) {
   PeriodTotal out;
   out.label = period.label;
   out.first = period.first;
   out.last = period.last;
-  out.length_ms = calendar.start_ms(period.last + 1) - calendar.start_ms(period.first);
+  out.length_ms = calendar.start_ms(whole.last + 1) - calendar.start_ms(whole.first);
   for (const DayFigures& day : days) {
     ++out.days_with_figures;
     out.volume += day.volume.value_or(0.0);
@@ -93,12 +94,13 @@ std::vector<PeriodTotal> totals(std::span<const DayFigures> days, Day from, Day 
   auto next = std::lower_bound(days.begin(), days.end(), from,
                                [](const DayFigures& d, Day day) { return d.day < day; });
   for (Day day = from; day <= to;) {
-    Period period = period_of(day, kind, water_year_start_month);
+    const Period whole = period_of(day, kind, water_year_start_month);
+    Period period = whole;
     period.first = std::max(period.first, from);  // only the part within the range
     period.last = std::min(period.last, to);
     const auto begin = next;
     while (next != days.end() && next->day <= period.last) ++next;
-    out.push_back(total_of(std::span<const DayFigures>(begin, next), period, calendar));
+    out.push_back(total_of(std::span<const DayFigures>(begin, next), period, whole, calendar));
     day = period.last + 1;
   }
   return out;
