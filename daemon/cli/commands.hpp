@@ -19,5 +19,6 @@ void add_plot_command(CLI::App& program, Action& chosen);
 void add_send_command(CLI::App& program, Action& chosen);
 void add_recompute_command(CLI::App& program, Action& chosen);
 void add_backup_command(CLI::App& program, Action& chosen);
+void add_export_command(CLI::App& program, Action& chosen);
 
 }  // namespace stagewell::cli
