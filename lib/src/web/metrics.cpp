@@ -205,40 +205,36 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
   out.sample(label("file", "database"), file_bytes(state.config.database));
   out.sample(label("file", "wal"), file_bytes(state.config.database.string() + "-wal"));
 
-  out.family("stagewell_site_reading_age_seconds", "gauge",
-             "Seconds from each site's latest reading to now.", "seconds");
+  // Each site's latest reading, read once for the three families below.
+  std::vector<std::pair<const SiteConfig*, StoredReading>> latest;
   for (const auto& site : state.config.sites) {
     auto key = site_key(state, site.id);
     if (!key) return std::unexpected(key.error());
     if (!*key) continue;
-    auto latest = state.store.latest_reading(**key);
-    if (!latest) return std::unexpected(latest.error());
-    if (!*latest) continue;
-    out.sample(label("site", site.id), static_cast<double>(now_ms - (*latest)->time_ms) / 1000.0);
+    auto reading = state.store.latest_reading(**key);
+    if (!reading) return std::unexpected(reading.error());
+    if (*reading) latest.emplace_back(&site, **reading);
   }
-
+  out.family("stagewell_site_reading_age_seconds", "gauge",
+             "Seconds from each site's latest reading to now.", "seconds");
+  for (const auto& [site, reading] : latest) {
+    out.sample(label("site", site->id), static_cast<double>(now_ms - reading.time_ms) / 1000.0);
+  }
   // What a dashboard plots: each site's latest reading, with its unit as a UCUM code.
   out.family("stagewell_site_latest_discharge", "gauge",
              "Discharge of each site's latest reading (absent when it has none: out of range).");
-  std::vector<std::pair<std::string, double>> stages;
-  for (const auto& site : state.config.sites) {
-    auto key = site_key(state, site.id);
-    if (!key) return std::unexpected(key.error());
-    if (!*key) continue;
-    auto latest = state.store.latest_reading(**key);
-    if (!latest) return std::unexpected(latest.error());
-    if (!*latest) continue;
-    stages.emplace_back(label("site", site.id) + "," +
-                            label("unit", units::ucum(site.stage.units)),
-                        (*latest)->stage);
-    if (!(*latest)->discharge) continue;
-    out.sample(label("site", site.id) + "," +
+  for (const auto& [site, reading] : latest) {
+    if (!reading.discharge) continue;
+    out.sample(label("site", site->id) + "," +
                    label("unit", units::ucum_discharge(state.config.units)),
-               *(*latest)->discharge);
+               *reading.discharge);
   }
   out.family("stagewell_site_latest_stage", "gauge",
              "Stage of each site's latest reading, as the sensor wrote it.");
-  for (const auto& [labels, stage] : stages) out.sample(labels, stage);
+  for (const auto& [site, reading] : latest) {
+    out.sample(label("site", site->id) + "," + label("unit", units::ucum(site->stage.units)),
+               reading.stage);
+  }
 
   auto alarms = state.store.has_alarms();
   if (!alarms) return std::unexpected(alarms.error());
