@@ -95,6 +95,13 @@ def main():
                 mode = os.stat(path).st_mode & 0o777 if os.path.exists(path) else None
                 R.check(f"{os.path.basename(path)} is not readable by others (mode "
                         f"{mode and oct(mode)})", mode is not None and mode & 0o007 == 0)
+            # ... but its group (analysts) may read the database beside the service, which in WAL
+            # mode needs the -shm file writable (sqlite.org, "Write-Ahead Logging", read-only
+            # databases): the database files are group-readable and -writable.
+            for path in (db, db + "-wal", db + "-shm"):
+                mode = os.stat(path).st_mode & 0o777 if os.path.exists(path) else None
+                R.check(f"{os.path.basename(path)} is group-readable and -writable (mode "
+                        f"{mode and oct(mode)})", mode is not None and mode & 0o060 == 0o060)
 
             # SIGHUP with an invalid configuration (site b's roughness out of bounds).
             ds.write(config_path, config(0.020, extra_site=True, error=True))

@@ -7,6 +7,7 @@
 
 #include <cerrno>
 #include <cstring>
+#include <fstream>
 #include <optional>
 #include <string>
 #include <system_error>
@@ -104,6 +105,19 @@ Error explain_unwritable(const std::filesystem::path& path, const std::filesyste
   return error;
 }
 
+// The process's umask, read without changing it (Linux: /proc/self/status, "Umask:"); 022 when
+// it cannot be read.
+unsigned current_umask() {
+  std::ifstream status("/proc/self/status");
+  std::string line;
+  while (std::getline(status, line)) {
+    if (line.rfind("Umask:", 0) == 0) {
+      return static_cast<unsigned>(std::stoul(line.substr(6), nullptr, 8));
+    }
+  }
+  return 022;
+}
+
 }  // namespace
 
 Store::Store(std::unique_ptr<Core> core) : core_(std::move(core)) {}
@@ -121,8 +135,18 @@ Result<Store> Store::open(const std::filesystem::path& path, const StoreOptions&
                             "(create it first; the store creates no directories)",
                             path.string(), directory.string()));
   }
+  const bool created = !std::filesystem::exists(path, ec);
   auto connection = connect(path, Connection::Access::read_write_create, options);
   if (!connection) return std::unexpected(explain_unwritable(path, directory, connection.error()));
+  // SQLite creates a database with mode 0644 less the umask, so under the service's UMask=0007
+  // its group could read the file but not write the -shm file a WAL reader needs. A new file is
+  // made 0666 less the umask instead (0660 for the service), before the -wal and -shm files
+  // exist: SQLite gives those the database file's mode.
+  if (created) {
+    std::filesystem::permissions(
+        path, std::filesystem::perms(0666 & ~current_umask()),
+        std::filesystem::perm_options::replace, ec);
+  }
   if (auto ok = configure_writer(**connection); !ok) {
     return std::unexpected(explain_unwritable(path, directory, ok.error()));
   }
