@@ -5,6 +5,7 @@
 #include <unistd.h>
 
 #include <charconv>
+#include <cstddef>
 #include <cstdlib>
 #include <cstring>
 #include <ctime>
