@@ -173,8 +173,14 @@ def main():
         R.check("export of 400,000 exits 0", code == 0)
         print(f"figure: export peak anonymous memory {small} KiB for 20,000 readings, {large} "
               f"KiB for 400,000", flush=True)
-        R.check("memory does not grow with the record (< 8 MiB more for 20x the readings)",
-                large - small < ds.memory_growth_bound_kib(8 * 1024), (small, large))
+        if os.environ.get("STAGEWELL_SANITIZED") == "1":
+            # AddressSanitizer keeps every freed block for a while (its quarantine) and never
+            # gives heap back, so heap use follows the work done, not what is held: the bound is
+            # checked by the normal build's run of this test.
+            print("not checked here: the memory bound (sanitized build)", flush=True)
+        else:
+            R.check("memory does not grow with the record (< 8 MiB more for 20x the readings)",
+                    large - small < 8 * 1024, (small, large))
     return R.finish()
 
 
