@@ -200,28 +200,15 @@ class WaterMlWriter {
   std::int64_t to_ms_;
 };
 
-Result<std::int64_t> parse_time(const std::string& text, std::int64_t otherwise,
-                                std::string_view option) {
-  if (text.empty()) return otherwise;
-  auto parsed = parse_timestamp(text, nullptr);
-  if (!parsed) {
-    return fail(ErrorKind::invalid_argument,
-                fmt::format("{} {}: {}", option, text, parsed.error().message));
-  }
-  return *parsed;
-}
-
 int run_export(const ExportOptions& options) {
   const auto config = load_config_or_report(options.config_path);
   if (!config) return kInvalidInput;
   const SiteConfig* site = find_site_or_report(*config, options.site_id);
   if (!site) return kInvalidInput;
-  const auto from = parse_time(options.from, std::numeric_limits<std::int64_t>::min(), "--from");
-  const auto to = parse_time(options.to, std::numeric_limits<std::int64_t>::max(), "--to");
-  if (!from || !to) {
-    std::cerr << (from ? to.error().message : from.error().message) << '\n';
-    return kUsage;
-  }
+  const auto from =
+      parse_time_option(options.from, "--from", std::numeric_limits<std::int64_t>::min());
+  const auto to = parse_time_option(options.to, "--to", std::numeric_limits<std::int64_t>::max());
+  if (!from || !to) return kUsage;
   if (*from > *to) {
     std::cerr << "--from is after --to\n";
     return kUsage;

@@ -49,20 +49,6 @@ void print_summary(const RecomputationTotals& totals, units::System system) {
   print_caution(std::cout);
 }
 
-std::optional<std::int64_t> parse_time_option(const std::string& text, std::string_view name,
-                                              std::int64_t absent) {
-  if (text.empty()) return absent;
-  auto parsed = parse_timestamp(text, nullptr);
-  if (!parsed) {
-    std::cerr << fmt::format(
-        "{} {}: {} (write RFC 3339 with an offset, e.g. "
-        "2025-06-01T00:00:00Z)\n",
-        name, text, parsed.error().message);
-    return std::nullopt;
-  }
-  return *parsed;
-}
-
 int run_recompute(const RecomputeOptions& options) {
   auto config = load_config_or_report(options.config_path);
   if (!config) return kInvalidInput;

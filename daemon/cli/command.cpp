@@ -1,7 +1,11 @@
 #include "command.hpp"
 
+#include <fmt/format.h>
+
 #include <filesystem>
 #include <iostream>
+
+#include "stagewell/timestamp.hpp"
 
 namespace stagewell::cli {
 
@@ -55,6 +59,20 @@ const SiteConfig* find_site_or_report(const Config& config, const std::string& s
   for (const auto& site : config.sites) known += (known.empty() ? "" : ", ") + site.id;
   std::cerr << "unknown site '" << site_id << "'; the configuration has: " << known << '\n';
   return nullptr;
+}
+
+std::optional<std::int64_t> parse_time_option(const std::string& text, std::string_view name,
+                                              std::int64_t absent) {
+  if (text.empty()) return absent;
+  auto parsed = parse_timestamp(text, nullptr);
+  if (!parsed) {
+    std::cerr << fmt::format(
+        "{} {}: {} (write RFC 3339 with an offset, e.g. "
+        "2025-06-01T00:00:00Z)\n",
+        name, text, parsed.error().message);
+    return std::nullopt;
+  }
+  return *parsed;
 }
 
 }  // namespace stagewell::cli

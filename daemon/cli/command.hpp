@@ -3,9 +3,11 @@
 #pragma once
 
 #include <CLI/CLI.hpp>
+#include <cstdint>
 #include <functional>
 #include <optional>
 #include <string>
+#include <string_view>
 
 #include "stagewell/config.hpp"
 
@@ -31,6 +33,11 @@ std::optional<std::string> find_config_or_report(const EnvironmentLookup& enviro
 // Loads and validates the configuration at `path`, or the one found when `path` is empty; on
 // failure prints every error to stderr.
 std::optional<Config> load_config_or_report(const std::string& path);
+
+// An RFC 3339 time option (`--from`, `--to`): `absent` when empty, nullopt after printing what
+// is wrong with it.
+std::optional<std::int64_t> parse_time_option(const std::string& text, std::string_view name,
+                                              std::int64_t absent);
 
 // The site with this id, or prints the known ids to stderr and returns nullptr.
 const SiteConfig* find_site_or_report(const Config& config, const std::string& site_id);
