@@ -25,10 +25,21 @@ test_packages=(
   dpkg-dev                       # dpkg-shlibdeps: the Debian package's Depends (package_test)
   groff-base python3-yaml        # package_test: renders the manual pages, reads demo.yaml
 )
+# Node.js and npm install the UCUM reference library that checks the unit codes
+# (tests/tools/ucum); Debian's packages unless the machine has them already from elsewhere.
+node_packages=(nodejs npm)
 
 wanted=("${build_packages[@]}")
 if [[ "${1:-}" == "--with-tests" ]]; then
   wanted+=("${test_packages[@]}")
+fi
+
+if [[ "${1:-}" == "--with-tests" ]]; then
+  for tool in "${node_packages[@]}"; do
+    if ! command -v "$tool" >/dev/null 2>&1 && ! command -v "${tool%js}" >/dev/null 2>&1; then
+      wanted+=("$tool")
+    fi
+  done
 fi
 
 missing=()
@@ -40,12 +51,20 @@ done
 
 if ((${#missing[@]} == 0)); then
   echo "setup: all ${#wanted[@]} packages already installed"
-  exit 0
+else
+  SUDO=""
+  if [[ $(id -u) -ne 0 ]]; then SUDO="sudo"; fi
+  echo "setup: installing ${missing[*]}"
+  export DEBIAN_FRONTEND=noninteractive
+  $SUDO apt-get update -q
+  $SUDO apt-get install -y -q --no-install-recommends "${missing[@]}"
 fi
 
-SUDO=""
-if [[ $(id -u) -ne 0 ]]; then SUDO="sudo"; fi
-echo "setup: installing ${missing[*]}"
-export DEBIAN_FRONTEND=noninteractive
-$SUDO apt-get update -q
-$SUDO apt-get install -y -q --no-install-recommends "${missing[@]}"
+# The UCUM reference library, at the version package-lock.json pins, from the npm registry.
+if [[ "${1:-}" == "--with-tests" ]]; then
+  ucum_tool="$(dirname "$0")/../tests/tools/ucum"
+  if [[ ! -d "$ucum_tool/node_modules/@lhncbc/ucum-lhc" ]]; then
+    echo "setup: installing the test tool in tests/tools/ucum (npm ci)"
+    npm ci --prefix "$ucum_tool" --no-audit --no-fund --loglevel=error
+  fi
+fi

@@ -41,8 +41,8 @@ void print_json(const Report& report, const std::vector<daily::DayFigures>& days
       {"timezone", report.config.timezone},
       {"from", daily::format_day(report.from)},
       {"to", daily::format_day(report.to)},
-      {"flow_units", std::string(units::option_name(u.flow))},
-      {"volume_units", std::string(units::option_name(u.volume))},
+      {"flow_units", std::string(units::ucum(u.flow))},
+      {"volume_units", std::string(units::ucum(u.volume))},
       {"stored", !report.reader.stale()},
       {"days", nlohmann::json::array()},
   };
@@ -72,11 +72,12 @@ std::string csv_number(std::optional<double> value) {
 
 void print_csv(const Report& report, const std::vector<daily::DayFigures>& days) {
   const auto& u = report.units;
-  const std::string flow = ascii_unit(units::option_name(u.flow));
+  // Units as UCUM codes in the header, as in every CSV stagewell writes.
+  const auto flow = units::ucum(u.flow);
   std::cout << fmt::format(
-      "day,volume_{0},mean_discharge_{1},min_discharge_{1},min_time,max_discharge_{1},max_time,"
-      "coverage,readings,flagged,flags\n",
-      ascii_unit(units::option_name(u.volume)), flow);
+      "day,volume ({0}),mean_discharge ({1}),min_discharge ({1}),min_time,max_discharge ({1}),"
+      "max_time,coverage,readings,flagged,flags\n",
+      units::ucum(u.volume), flow);
   for (const auto& day : days) {
     std::string flags;
     for (const auto& count : day.flag_counts) {

@@ -17,6 +17,7 @@ struct FlowOptions {
   std::string config_path;
   std::string site_id;
   double stage = 0.0;
+  std::string flow_units;  // empty: the configuration's discharge unit
   bool json = false;
 };
 
@@ -44,9 +45,12 @@ int run_flow(const FlowOptions& options) {
     return kUsage;
   }
   const auto system = config->units;
+  const auto flow_unit = flow_unit_or_report(options.flow_units, system);
+  if (!flow_unit) return kUsage;
   const auto channel = make_channel(*site, system);
   const double depth = site->depth_for_stage(options.stage, system);
   const HydraulicState state = channel->at_depth(depth);
+  const double discharge = flow_in(state.discharge, system, *flow_unit);
 
   if (options.json) {
     nlohmann::json out = {
@@ -59,15 +63,15 @@ int run_flow(const FlowOptions& options) {
         {"top_width", json_number(state.top_width)},
         {"hydraulic_depth", json_number(state.hydraulic_depth)},
         {"velocity", json_number(state.velocity)},
-        {"discharge", json_number(state.discharge)},
+        {"discharge", json_number(discharge)},
         {"froude", json_number(state.froude)},
         {"flags", flags_json(state.flags)},
         {"units",
-         {{"stage", units::symbol(site->stage.units)},
-          {"length", units::length_symbol(system)},
-          {"area", units::area_symbol(system)},
-          {"velocity", units::velocity_symbol(system)},
-          {"discharge", units::discharge_symbol(system)}}},
+         {{"stage", units::ucum(site->stage.units)},
+          {"length", units::ucum_length(system)},
+          {"area", units::ucum_area(system)},
+          {"velocity", units::ucum_velocity(system)},
+          {"discharge", units::ucum(*flow_unit)}}},
     };
     std::cout << out.dump(2) << '\n';
     return kOk;
@@ -87,13 +91,12 @@ int run_flow(const FlowOptions& options) {
   row("top width", state.top_width, length);
   row("hydraulic depth", state.hydraulic_depth, length);
   row("mean velocity", state.velocity, units::velocity_symbol(system));
-  row("discharge", state.discharge, units::discharge_symbol(system));
-  const auto other_flow =
-      system == units::System::metric ? units::Flow::litres_per_s : units::Flow::us_gal_per_min;
-  row("",
-      state.discharge * units::to_m3_per_s(units::default_flow(system)) /
-          units::to_m3_per_s(other_flow),
-      units::symbol(other_flow));
+  row("discharge", discharge, units::symbol(*flow_unit));
+  if (options.flow_units.empty()) {  // the same in the small unit of the system, for small flows
+    const auto other_flow =
+        system == units::System::metric ? units::Flow::litres_per_s : units::Flow::us_gal_per_min;
+    row("", flow_in(state.discharge, system, other_flow), units::symbol(other_flow));
+  }
   row("Froude number", state.froude, state.froude > 1.0 ? "(supercritical)" : "(subcritical)");
   std::cout << fmt::format("  {:<18}{:>12}\n", "flags",
                            state.flags.empty() ? "none" : state.flags.joined(' '));
@@ -107,17 +110,10 @@ int run_depth(const DepthOptions& options) {
   const auto* site = find_site_or_report(*config, options.site_id);
   if (!site) return kInvalidInput;
   const auto system = config->units;
-  double discharge = options.flow;  // in the configuration's discharge unit
-  if (!options.flow_units.empty()) {
-    const auto unit = units::parse_flow(options.flow_units);
-    if (!unit) {
-      std::cerr << "unknown --flow-units '" << options.flow_units
-                << "'; choose one of: " << units::flow_choices() << '\n';
-      return kUsage;
-    }
-    discharge =
-        options.flow * units::to_m3_per_s(*unit) / units::to_m3_per_s(units::default_flow(system));
-  }
+  const auto flow_unit = flow_unit_or_report(options.flow_units, system);
+  if (!flow_unit) return kUsage;
+  // In the configuration's discharge unit, which the hydraulics work in; answered in flow_unit.
+  const double discharge = options.flow / flow_in(1.0, system, *flow_unit);
   const auto channel = make_channel(*site, system);
   const auto normal = channel->normal_depth(discharge);
   if (!normal) {
@@ -135,15 +131,15 @@ int run_depth(const DepthOptions& options) {
   if (options.json) {
     nlohmann::json out = {
         {"site", site->id},
-        {"discharge", discharge},
+        {"discharge", options.flow},
         {"normal_depth", *normal},
         {"normal_stage", normal_stage},
         {"critical_depth", *critical},
         {"critical_stage", critical_stage},
         {"units",
-         {{"stage", units::symbol(site->stage.units)},
-          {"length", units::length_symbol(system)},
-          {"discharge", units::discharge_symbol(system)}}},
+         {{"stage", units::ucum(site->stage.units)},
+          {"length", units::ucum_length(system)},
+          {"discharge", units::ucum(*flow_unit)}}},
     };
     std::cout << out.dump(2) << '\n';
     return kOk;
@@ -152,8 +148,8 @@ int run_depth(const DepthOptions& options) {
   const auto stage_unit = units::symbol(site->stage.units);
   std::cout << fmt::format("{} ({}), {}\n", site->id, site->name,
                            describe_section(site->section, system));
-  std::cout << fmt::format("  {:<16}{:>12} {}\n", "discharge", format_number(discharge),
-                           units::discharge_symbol(system));
+  std::cout << fmt::format("  {:<16}{:>12} {}\n", "discharge", format_number(options.flow),
+                           units::symbol(*flow_unit));
   std::cout << fmt::format("  {:<16}{:>12} {}   (stage {} {})\n", "normal depth",
                            format_number(*normal), length, format_number(normal_stage), stage_unit);
   std::cout << fmt::format("  {:<16}{:>12} {}   (stage {} {})\n", "critical depth",
@@ -180,8 +176,12 @@ void add_flow_command(CLI::App& program, Action& chosen) {
   command->add_option("-s,--site", options->site_id, "Site id")->required();
   command->add_option("--stage", options->stage, "Stage reading, in the site's stage units")
       ->required();
+  command->add_option("--flow-units", options->flow_units,
+                      "Discharge in: " + units::flow_choices() +
+                          " (any case; default: the configuration's, m3/s or ft3/s)");
   command->add_flag("--json", options->json,
-                    "One JSON object, numbers in the configuration's units");
+                    "One JSON object, numbers in the configuration's units (discharge in "
+                    "--flow-units), units as UCUM codes");
   command->final_callback(
       [&chosen, options] { chosen = [options] { return run_flow(*options); }; });
 }
@@ -197,9 +197,10 @@ void add_depth_command(CLI::App& program, Action& chosen) {
                    "Discharge, in the configuration's unit (m3/s or ft3/s) unless --flow-units")
       ->required();
   command->add_option("--flow-units", options->flow_units,
-                      "Unit of --flow: " + units::flow_choices());
+                      "Unit of --flow: " + units::flow_choices() + " (any case)");
   command->add_flag("--json", options->json,
-                    "One JSON object, numbers in the configuration's units");
+                    "One JSON object, numbers in the configuration's units (discharge in "
+                    "--flow-units), units as UCUM codes");
   command->final_callback(
       [&chosen, options] { chosen = [options] { return run_depth(*options); }; });
 }

@@ -66,8 +66,8 @@ void print_json(const Report& r, const Computed& c) {
       {"timezone", r.config.timezone},
       {"from", daily::format_day(r.from)},
       {"to", daily::format_day(r.to)},
-      {"flow_units", std::string(units::option_name(u.flow))},
-      {"volume_units", std::string(units::option_name(u.volume))},
+      {"flow_units", std::string(units::ucum(u.flow))},
+      {"volume_units", std::string(units::ucum(u.volume))},
       {"water_year_start_month", r.config.daily.water_year_start_month},
       {"stored", !r.reader.stale()},
   };

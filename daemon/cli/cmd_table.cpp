@@ -1,6 +1,7 @@
 // `stagewell table`: a stage-discharge table by the direct formula, for people or as CSV.
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <iostream>
 #include <memory>
@@ -20,6 +21,7 @@ struct TableOptions {
   std::optional<double> from;  // stage units
   std::optional<double> to;
   std::optional<double> step;
+  std::string flow_units;  // empty: the configuration's discharge unit
   bool csv = false;
 };
 
@@ -33,12 +35,25 @@ double nice_step(double span) {
   return 10.0 * decade;
 }
 
+// from + i * step, rounded to well below the step's last digit so that a table in steps of 0.1
+// shows 0.3, not 0.30000000000000004. Division by an exact power of ten gives the double nearest
+// the decimal value.
+double table_stage(double from, long i, double step) {
+  const double stage = from + static_cast<double>(i) * step;
+  const int decimals = std::clamp(9 - static_cast<int>(std::floor(std::log10(step))), 0, 15);
+  const double scale = std::pow(10.0, decimals);
+  const double rounded = std::round(stage * scale) / scale;
+  return std::isfinite(rounded) ? rounded : stage;
+}
+
 int run_table(const TableOptions& options) {
   const auto config = load_config_or_report(options.config_path);
   if (!config) return kInvalidInput;
   const auto* site = find_site_or_report(*config, options.site_id);
   if (!site) return kInvalidInput;
   const auto system = config->units;
+  const auto flow_unit = flow_unit_or_report(options.flow_units, system);
+  if (!flow_unit) return kUsage;
   const auto channel = make_channel(*site, system);
 
   const double from = options.from.value_or(site->stage_for_depth(0.0, system));
@@ -62,14 +77,13 @@ int run_table(const TableOptions& options) {
 
   const auto stage_unit = units::symbol(site->stage.units);
   const auto length = units::length_symbol(system);
-  const auto flow = units::discharge_symbol(system);
+  const auto flow = units::symbol(*flow_unit);
   const auto velocity = units::velocity_symbol(system);
   if (options.csv) {
-    // ASCII unit suffixes keep the header usable as column names in any tool.
-    const bool metric = system == units::System::metric;
-    std::cout << fmt::format("stage_{},depth_{},discharge_{},velocity_{},froude,flags\n",
-                             units::symbol(site->stage.units), metric ? "m" : "ft",
-                             metric ? "m3_per_s" : "ft3_per_s", metric ? "m_per_s" : "ft_per_s");
+    // Units as UCUM codes in the header, as in every CSV stagewell writes.
+    std::cout << fmt::format("stage ({}),depth ({}),discharge ({}),velocity ({}),froude,flags\n",
+                             units::ucum(site->stage.units), units::ucum_length(system),
+                             units::ucum(*flow_unit), units::ucum_velocity(system));
   } else {
     std::cout << fmt::format("{} ({}), {}, n {}, slope {}\n", site->id, site->name,
                              describe_section(site->section, system),
@@ -81,15 +95,16 @@ int run_table(const TableOptions& options) {
                              fmt::format("velocity {}", velocity), "Froude", "flags");
   }
   for (long i = 0; i < rows; ++i) {
-    const double stage = from + static_cast<double>(i) * step;
+    const double stage = table_stage(from, i, step);
     const double depth = site->depth_for_stage(stage, system);
     const auto state = channel->at_depth(depth);
+    const double discharge = flow_in(state.discharge, system, *flow_unit);
     if (options.csv) {
-      std::cout << fmt::format("{},{},{},{},{},{}\n", stage, depth, state.discharge, state.velocity,
+      std::cout << fmt::format("{},{},{},{},{},{}\n", stage, depth, discharge, state.velocity,
                                state.froude, state.flags.joined(' '));
     } else {
       std::cout << fmt::format("{:>12} {:>12} {:>14} {:>12} {:>8}  {}\n", format_number(stage),
-                               format_number(depth), format_number(state.discharge),
+                               format_number(depth), format_number(discharge),
                                format_number(state.velocity), format_number(state.froude, 3),
                                state.flags.joined(' '));
     }
@@ -112,7 +127,11 @@ void add_table_command(CLI::App& program, Action& chosen) {
                       "Last stage, in stage units (default: the stage at the top of the section)");
   command->add_option("--step", options->step,
                       "Stage step, in stage units (default: about 25 rows)");
-  command->add_flag("--csv", options->csv, "CSV with a header line, full precision");
+  command->add_option("--flow-units", options->flow_units,
+                      "Discharge in: " + units::flow_choices() +
+                          " (any case; default: the configuration's, m3/s or ft3/s)");
+  command->add_flag("--csv", options->csv,
+                    "CSV with a header line (units as UCUM codes), full precision");
   command->final_callback(
       [&chosen, options] { chosen = [options] { return run_table(*options); }; });
 }

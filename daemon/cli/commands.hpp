@@ -20,5 +20,6 @@ void add_send_command(CLI::App& program, Action& chosen);
 void add_recompute_command(CLI::App& program, Action& chosen);
 void add_backup_command(CLI::App& program, Action& chosen);
 void add_export_command(CLI::App& program, Action& chosen);
+void add_units_command(CLI::App& program, Action& chosen);
 
 }  // namespace stagewell::cli

@@ -28,6 +28,7 @@ int main(int argc, char** argv) {
   add_recompute_command(program, chosen);
   add_backup_command(program, chosen);
   add_export_command(program, chosen);
+  add_units_command(program, chosen);
 
   try {
     program.parse(argc, argv);

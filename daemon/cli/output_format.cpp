@@ -27,6 +27,20 @@ nlohmann::json json_number(double value) {
   return value;
 }
 
+std::optional<units::Flow> flow_unit_or_report(const std::string& text, units::System system) {
+  if (text.empty()) return units::default_flow(system);
+  const auto unit = units::parse_flow(text);
+  if (!unit) {
+    std::cerr << fmt::format("unknown --flow-units '{}'; use one of: {} (any case)\n", text,
+                             units::flow_choices());
+  }
+  return unit;
+}
+
+double flow_in(double discharge, units::System system, units::Flow unit) {
+  return discharge * units::to_m3_per_s(units::default_flow(system)) / units::to_m3_per_s(unit);
+}
+
 void print_caution(std::ostream& out) {
   out << "Caution: discharge from Manning's equation is an estimate (assumed roughness, steady "
          "uniform flow);\nverify it with field measurements. Not for life-safety decisions "

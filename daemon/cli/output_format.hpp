@@ -3,6 +3,7 @@
 
 #include <iosfwd>
 #include <nlohmann/json_fwd.hpp>
+#include <optional>
 #include <string>
 
 #include "stagewell/config.hpp"
@@ -14,6 +15,13 @@ std::string format_number(double value, int significant = 4);
 
 // A number for JSON: full precision, null when not finite.
 nlohmann::json json_number(double value);
+
+// --flow-units as typed (empty: the configuration's own unit, m3/s or ft3/s). On an unknown
+// name it has told the user the choices and returns nullopt (exit status kUsage).
+std::optional<units::Flow> flow_unit_or_report(const std::string& text, units::System system);
+
+// A discharge in the configuration's unit, in `unit`.
+double flow_in(double discharge, units::System system, units::Flow unit);
 
 // The short caution printed under results meant for people.
 void print_caution(std::ostream& out);

@@ -26,10 +26,12 @@ void add_report_options(CLI::App& command, ReportOptions& options, bool period_r
   }
   command.add_option(
       "--flow-units", options.flow_units,
-      "Discharge in: " + units::flow_choices() + " (default: the configuration's, m3/s or ft3/s)");
+      "Discharge in: " + units::flow_choices() +
+          " (any case; default: the configuration's, m3/s or ft3/s)");
   command.add_option(
       "--volume-units", options.volume_units,
-      "Volume in: " + units::volume_choices() + " (default: the configuration's, m3 or ft3)");
+      "Volume in: " + units::volume_choices() +
+          " (any case; default: the configuration's, m3 or ft3)");
 }
 
 std::expected<Report, int> open_report(const ReportOptions& options) {
@@ -38,20 +40,13 @@ std::expected<Report, int> open_report(const ReportOptions& options) {
   const SiteConfig* site = find_site_or_report(*config, options.site_id);
   if (!site) return std::unexpected(kInvalidInput);
 
-  std::optional<units::Flow> flow;
-  if (!options.flow_units.empty()) {
-    flow = units::parse_flow(options.flow_units);
-    if (!flow) {
-      std::cerr << fmt::format("unknown --flow-units '{}'; use one of: {}\n", options.flow_units,
-                               units::flow_choices());
-      return std::unexpected(kUsage);
-    }
-  }
+  const std::optional<units::Flow> flow = flow_unit_or_report(options.flow_units, config->units);
+  if (!flow) return std::unexpected(kUsage);
   std::optional<units::Volume> volume;
   if (!options.volume_units.empty()) {
     volume = units::parse_volume(options.volume_units);
     if (!volume) {
-      std::cerr << fmt::format("unknown --volume-units '{}'; use one of: {}\n",
+      std::cerr << fmt::format("unknown --volume-units '{}'; use one of: {} (any case)\n",
                                options.volume_units, units::volume_choices());
       return std::unexpected(kUsage);
     }
@@ -112,20 +107,6 @@ std::optional<std::vector<daily::DayFigures>> report_days(Report& report) {
     return std::nullopt;
   }
   return std::move(*days);
-}
-
-std::string ascii_unit(std::string_view option_name) {
-  std::string out;
-  for (const char c : option_name) {
-    if (c == '/') {
-      out += "_per_";
-    } else if (c == '-') {
-      out += '_';
-    } else {
-      out += c;
-    }
-  }
-  return out;
 }
 
 std::string site_title(const SiteConfig& site) {

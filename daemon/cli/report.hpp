@@ -46,9 +46,6 @@ std::expected<Report, int> open_report(const ReportOptions& options);
 // nullopt (exit status kInvalidInput).
 std::optional<std::vector<daily::DayFigures>> report_days(Report& report);
 
-// "m3/s" -> "m3_per_s", "acre-ft" -> "acre_ft": a unit as part of a CSV column name.
-std::string ascii_unit(std::string_view option_name);
-
 // "raceway-a (Hatchery raceway A outlet)", or the id alone when the site has no other name.
 std::string site_title(const SiteConfig& site);
 

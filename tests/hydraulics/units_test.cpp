@@ -93,3 +93,32 @@ TEST_CASE("unit names are read as the header documents them") {
   CHECK(parse_volume("acre-ft") == Volume::acre_ft);
   CHECK_FALSE(parse_volume("acre-feet").has_value());
 }
+
+TEST_CASE("unit names in any case, trade abbreviations and UCUM codes are accepted") {
+  // What a user types: "l/s" for litres per second (case is not meaningful to people here;
+  // every spelling within a kind stays unique ignoring case), the common-practice
+  // abbreviations cfs, gpm and mgd, and the UCUM code that JSON and CSV output carry.
+  CHECK(parse_flow("l/s") == Flow::litres_per_s);
+  CHECK(parse_flow("M3/S") == Flow::m3_per_s);
+  CHECK(parse_flow("cfs") == Flow::ft3_per_s);
+  CHECK(parse_flow("GPM") == Flow::us_gal_per_min);
+  CHECK(parse_flow("MGD") == Flow::million_us_gal_per_day);
+  CHECK(parse_flow("[ft_i]3/s") == Flow::ft3_per_s);
+  CHECK(parse_length("CM") == Length::cm);
+  CHECK(parse_length("[in_i]") == Length::in);
+  CHECK(parse_volume("ml") == Volume::megalitres);  // no one keeps daily volumes in millilitres
+  CHECK(parse_volume("l") == Volume::litres);
+  CHECK(parse_volume("GAL") == Volume::us_gal);
+  CHECK(parse_volume("43560.[ft_i]3") == Volume::acre_ft);
+  // UCUM codes are case-sensitive (UCUM's case-sensitive form): "[FT_I]3/S" is not one.
+  CHECK_FALSE(parse_flow("[FT_I]3/S").has_value());
+  CHECK_FALSE(parse_flow("ft3/min").has_value());
+}
+
+TEST_CASE("litres and US gallons as volumes") {
+  // Closed form [C]: 1 L = 0.001 m^3; 1 US gal = 231 in^3 = 0.003785411784 m^3.
+  CHECK(to_m3(Volume::litres) == doctest::Approx(0.001).epsilon(1e-15));
+  CHECK(to_m3(Volume::us_gal) == doctest::Approx(0.003785411784).epsilon(1e-13));
+  CHECK(to_m3(Volume::million_us_gal) / to_m3(Volume::us_gal) ==
+        doctest::Approx(1e6).epsilon(1e-12));
+}

@@ -8,6 +8,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <vector>
 
 namespace stagewell::units {
 
@@ -33,6 +34,9 @@ std::string_view area_symbol(System system);       // "m²" | "ft²"
 std::string_view velocity_symbol(System system);   // "m/s" | "ft/s"
 std::string_view volume_symbol(System system);     // "m³" | "ft³"
 
+// Parsing takes each unit's ASCII spelling (the one --help lists) in any case ("l/s", "CM"), a
+// trade abbreviation where there is one ("cfs", "gpm", "mgd"), or its UCUM code exactly.
+
 // Units of incoming stage readings.
 enum class Length { m, cm, mm, ft, in };
 std::optional<Length> parse_length(std::string_view text);  // "m" "cm" "mm" "ft" "in"
@@ -48,20 +52,40 @@ double to_m3_per_s(Flow unit);
 Flow default_flow(System system);  // m3/s or ft3/s
 
 // Units a volume can be shown in.
-enum class Volume { m3, megalitres, ft3, acre_ft, million_us_gal };
-std::optional<Volume> parse_volume(std::string_view text);  // "m3" "ML" "ft3" "acre-ft" "Mgal"
+enum class Volume { m3, litres, megalitres, ft3, us_gal, acre_ft, million_us_gal };
+// "m3" "L" "ML" "ft3" "gal" "acre-ft" "Mgal"
+std::optional<Volume> parse_volume(std::string_view text);
 std::string_view symbol(Volume unit);
 std::string_view option_name(Volume unit);
 double to_m3(Volume unit);
 Volume default_volume(System system);  // m3 or ft3
 
-// UCUM codes (The Unified Code for Units of Measure, case-sensitive form), for machine-readable
-// places: the database's views, exports. "m", "cm", "mm", "[ft_i]", "[in_i]" (international foot
-// and inch); discharge "m3/s" or "[ft_i]3/s"; volume "m3" or "[ft_i]3".
+// UCUM codes (The Unified Code for Units of Measure, case-sensitive form), the one spelling of
+// every machine-readable place: the database's views, JSON, CSV headers, exports, metrics.
+// "m", "cm", "mm", "[ft_i]", "[in_i]" (international foot and inch); discharge "m3/s",
+// "[ft_i]3/s", "L/s", "[gal_us]/min", "10*6.[gal_us]/d"; volume "m3", "[ft_i]3", "L", "ML",
+// "[gal_us]", "43560.[ft_i]3" (acre-ft), "10*6.[gal_us]". Human-readable text uses symbol().
 std::string_view ucum(Length unit);
+std::string_view ucum(Flow unit);
+std::string_view ucum(Volume unit);
 std::string_view ucum_length(System system);
 std::string_view ucum_discharge(System system);
 std::string_view ucum_volume(System system);
+std::string_view ucum_area(System system);      // "m2" | "[ft_i]2"
+std::string_view ucum_velocity(System system);  // "m/s" | "[ft_i]/s"
+
+// Every unit the options and the configuration accept, for `stagewell units`: its kind ("length",
+// "flow", "volume"), spellings, and value in SI units (m, m3/s, m3).
+struct Listed {
+  std::string_view kind;
+  std::string_view option;
+  std::string_view alias;  // empty when none
+  std::string_view symbol;
+  std::string_view ucum;
+  double si_factor;
+  std::string_view si_ucum;  // "m", "m3/s" or "m3"
+};
+std::vector<Listed> listing();
 
 // Lists for error messages and --help: "m, cm, mm, ft, in".
 std::string length_choices();

@@ -9,40 +9,63 @@ namespace {
 template <typename E>
 struct Entry {
   E unit;
-  std::string_view option;  // ASCII spelling accepted on input
-  std::string_view symbol;  // spelling for output
+  std::string_view option;  // ASCII spelling listed in --help, accepted on input in any case
+  std::string_view symbol;  // spelling for people: text, the page, logs
+  std::string_view ucum;    // UCUM code for machine-readable output, also accepted on input
   double factor;            // SI units (m, m^3/s, m^3) in one unit
+  std::string_view alias = {};  // another accepted spelling (a trade abbreviation), any case
 };
 
+// UCUM codes: "[ft_i]" and "[in_i]" are the international foot and inch, "[gal_us]" the US
+// gallon; "10*6" is the factor one million and "." multiplies, so "10*6.[gal_us]" is a million
+// US gallons. UCUM's acre units are the survey and British acres, so the acre-foot on the
+// international foot is written as what it is, 43,560 cubic feet. tests/e2e/ucum_codes_test.py
+// checks every code and factor with the UCUM reference library.
 constexpr std::array<Entry<Length>, 5> kLengths{{
-    {Length::m, "m", "m", 1.0},
-    {Length::cm, "cm", "cm", 0.01},
-    {Length::mm, "mm", "mm", 0.001},
-    {Length::ft, "ft", "ft", foot_m},
-    {Length::in, "in", "in", inch_m},
+    {Length::m, "m", "m", "m", 1.0},
+    {Length::cm, "cm", "cm", "cm", 0.01},
+    {Length::mm, "mm", "mm", "mm", 0.001},
+    {Length::ft, "ft", "ft", "[ft_i]", foot_m},
+    {Length::in, "in", "in", "[in_i]", inch_m},
 }};
 
 constexpr std::array<Entry<Flow>, 5> kFlows{{
-    {Flow::m3_per_s, "m3/s", "m³/s", 1.0},
-    {Flow::litres_per_s, "L/s", "L/s", 0.001},
-    {Flow::ft3_per_s, "ft3/s", "ft³/s", cubic_foot_m3},
-    {Flow::us_gal_per_min, "gal/min", "US gal/min", us_gallon_m3 / 60.0},
-    {Flow::million_us_gal_per_day, "Mgal/d", "million US gal/d",
-     1e6 * us_gallon_m3 / seconds_per_day},
+    {Flow::m3_per_s, "m3/s", "m³/s", "m3/s", 1.0},
+    {Flow::litres_per_s, "L/s", "L/s", "L/s", 0.001},
+    {Flow::ft3_per_s, "ft3/s", "ft³/s", "[ft_i]3/s", cubic_foot_m3, "cfs"},
+    {Flow::us_gal_per_min, "gal/min", "US gal/min", "[gal_us]/min", us_gallon_m3 / 60.0, "gpm"},
+    {Flow::million_us_gal_per_day, "Mgal/d", "million US gal/d", "10*6.[gal_us]/d",
+     1e6 * us_gallon_m3 / seconds_per_day, "mgd"},
 }};
 
-constexpr std::array<Entry<Volume>, 5> kVolumes{{
-    {Volume::m3, "m3", "m³", 1.0},
-    {Volume::megalitres, "ML", "ML", 1000.0},
-    {Volume::ft3, "ft3", "ft³", cubic_foot_m3},
-    {Volume::acre_ft, "acre-ft", "acre-ft", acre_foot_m3},
-    {Volume::million_us_gal, "Mgal", "million US gal", 1e6 * us_gallon_m3},
+constexpr std::array<Entry<Volume>, 7> kVolumes{{
+    {Volume::m3, "m3", "m³", "m3", 1.0},
+    {Volume::litres, "L", "L", "L", 0.001},
+    {Volume::megalitres, "ML", "ML", "ML", 1000.0},
+    {Volume::ft3, "ft3", "ft³", "[ft_i]3", cubic_foot_m3},
+    {Volume::us_gal, "gal", "US gal", "[gal_us]", us_gallon_m3},
+    {Volume::acre_ft, "acre-ft", "acre-ft", "43560.[ft_i]3", acre_foot_m3},
+    {Volume::million_us_gal, "Mgal", "million US gal", "10*6.[gal_us]", 1e6 * us_gallon_m3},
 }};
 
+bool same_ignoring_case(std::string_view a, std::string_view b) {
+  if (a.size() != b.size()) return false;
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    const auto lower = [](char c) { return c >= 'A' && c <= 'Z' ? char(c - 'A' + 'a') : c; };
+    if (lower(a[i]) != lower(b[i])) return false;
+  }
+  return true;
+}
+
+// The option spelling or the alias in any case ("l/s", "CFS"), or the UCUM code exactly (UCUM is
+// case-sensitive). Lengths, flows and volumes each have spellings unique ignoring case.
 template <typename E, std::size_t N>
 std::optional<E> parse(const std::array<Entry<E>, N>& table, std::string_view text) {
   for (const auto& entry : table) {
-    if (entry.option == text) return entry.unit;
+    if (same_ignoring_case(entry.option, text) || entry.ucum == text ||
+        (!entry.alias.empty() && same_ignoring_case(entry.alias, text))) {
+      return entry.unit;
+    }
   }
   return std::nullopt;
 }
@@ -117,29 +140,35 @@ std::string_view option_name(Volume unit) { return lookup(kVolumes, unit).option
 double to_m3(Volume unit) { return lookup(kVolumes, unit).factor; }
 Volume default_volume(System system) { return system == System::metric ? Volume::m3 : Volume::ft3; }
 
+std::vector<Listed> listing() {
+  std::vector<Listed> out;
+  const auto add = [&out](std::string_view kind, std::string_view si, const auto& table) {
+    for (const auto& e : table) {
+      out.push_back({kind, e.option, e.alias, e.symbol, e.ucum, e.factor, si});
+    }
+  };
+  add("length", "m", kLengths);
+  add("flow", "m3/s", kFlows);
+  add("volume", "m3", kVolumes);
+  return out;
+}
+
 std::string length_choices() { return choices(kLengths); }
 std::string flow_choices() { return choices(kFlows); }
 std::string volume_choices() { return choices(kVolumes); }
 
-std::string_view ucum(Length unit) {
-  switch (unit) {
-    case Length::m: return "m";
-    case Length::cm: return "cm";
-    case Length::mm: return "mm";
-    case Length::ft: return "[ft_i]";
-    case Length::in: return "[in_i]";
-  }
-  return "m";
-}
+std::string_view ucum(Length unit) { return lookup(kLengths, unit).ucum; }
+std::string_view ucum(Flow unit) { return lookup(kFlows, unit).ucum; }
+std::string_view ucum(Volume unit) { return lookup(kVolumes, unit).ucum; }
 
 std::string_view ucum_length(System system) {
-  return system == System::metric ? "m" : "[ft_i]";
+  return ucum(system == System::metric ? Length::m : Length::ft);
 }
-std::string_view ucum_discharge(System system) {
-  return system == System::metric ? "m3/s" : "[ft_i]3/s";
-}
-std::string_view ucum_volume(System system) {
-  return system == System::metric ? "m3" : "[ft_i]3";
+std::string_view ucum_discharge(System system) { return ucum(default_flow(system)); }
+std::string_view ucum_volume(System system) { return ucum(default_volume(system)); }
+std::string_view ucum_area(System system) { return system == System::metric ? "m2" : "[ft_i]2"; }
+std::string_view ucum_velocity(System system) {
+  return system == System::metric ? "m/s" : "[ft_i]/s";
 }
 
 }  // namespace stagewell::units

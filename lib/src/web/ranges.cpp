@@ -69,9 +69,9 @@ Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& si
   const json body{{"site", site.id},
                   {"from", format_timestamp_utc(from_ms)},
                   {"to", format_timestamp_utc(to_ms)},
-                  {"stage_unit", units::symbol(site.stage.units)},
-                  {"depth_unit", units::length_symbol(state.config.units)},
-                  {"discharge_unit", units::discharge_symbol(state.config.units)},
+                  {"stage_unit", units::ucum(site.stage.units)},
+                  {"depth_unit", units::ucum_length(state.config.units)},
+                  {"discharge_unit", units::ucum_discharge(state.config.units)},
                   {"truncated", truncated},
                   {"next", std::move(next)},
                   {"readings", std::move(readings)}};
@@ -122,8 +122,8 @@ Result<HttpAnswer> daily_answer(StatusApi::State& state, const SiteConfig& site,
                   {"from", daily::format_day(from_day)},
                   {"to", daily::format_day(to_day)},
                   {"timezone", state.config.timezone},
-                  {"volume_unit", units::volume_symbol(state.config.units)},
-                  {"discharge_unit", units::discharge_symbol(state.config.units)},
+                  {"volume_unit", units::ucum_volume(state.config.units)},
+                  {"discharge_unit", units::ucum_discharge(state.config.units)},
                   {"days", std::move(days)}};
   return json_answer(200, to_text(body));
 }

@@ -67,16 +67,11 @@ Result<json> site_entry(StatusApi::State& state, const SiteConfig& site,
   json entry{
       {"id", site.id},
       {"name", site.name},
-      {"stage_unit", units::symbol(site.stage.units)},
-      {"depth_unit", units::length_symbol(system)},
-      {"discharge_unit", units::discharge_symbol(system)},
-      {"volume_unit", units::volume_symbol(system)},
-      // The same units as UCUM codes, for programs (The Unified Code for Units of Measure).
-      {"unit_codes",
-       {{"stage", units::ucum(site.stage.units)},
-        {"depth", units::ucum_length(system)},
-        {"discharge", units::ucum_discharge(system)},
-        {"volume", units::ucum_volume(system)}}},
+      // UCUM codes (The Unified Code for Units of Measure), as everywhere in the API.
+      {"stage_unit", units::ucum(site.stage.units)},
+      {"depth_unit", units::ucum_length(system)},
+      {"discharge_unit", units::ucum_discharge(system)},
+      {"volume_unit", units::ucum_volume(system)},
       {"location", site.location ? json{{"latitude", site.location->latitude},
                                         {"longitude", site.location->longitude}}
                                  : json(nullptr)},
