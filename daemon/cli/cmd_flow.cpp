@@ -175,7 +175,8 @@ void add_flow_command(CLI::App& program, Action& chosen) {
   add_config_option(*command, options->config_path);
   command->add_option("-s,--site", options->site_id, "Site id")->required();
   command->add_option("--stage", options->stage, "Stage reading, in the site's stage units")
-      ->required();
+      ->required()
+      ->check(decimal_number());
   command->add_option("--flow-units", options->flow_units,
                       "Discharge in: " + units::flow_choices() +
                           " (any case; default: the configuration's, m3/s or ft3/s)");
@@ -195,7 +196,8 @@ void add_depth_command(CLI::App& program, Action& chosen) {
   command
       ->add_option("--flow", options->flow,
                    "Discharge, in the configuration's unit (m3/s or ft3/s) unless --flow-units")
-      ->required();
+      ->required()
+      ->check(decimal_number());
   command->add_option("--flow-units", options->flow_units,
                       "Unit of --flow: " + units::flow_choices() + " (any case)");
   command->add_flag("--json", options->json,

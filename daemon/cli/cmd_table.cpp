@@ -122,11 +122,14 @@ void add_table_command(CLI::App& program, Action& chosen) {
   add_config_option(*command, options->config_path);
   command->add_option("-s,--site", options->site_id, "Site id")->required();
   command->add_option("--from", options->from,
-                      "First stage, in stage units (default: the stage of zero flow)");
+                      "First stage, in stage units (default: the stage of zero flow)")
+      ->check(decimal_number());
   command->add_option("--to", options->to,
-                      "Last stage, in stage units (default: the stage at the top of the section)");
+                      "Last stage, in stage units (default: the stage at the top of the section)")
+      ->check(decimal_number());
   command->add_option("--step", options->step,
-                      "Stage step, in stage units (default: about 25 rows)");
+                      "Stage step, in stage units (default: about 25 rows)")
+      ->check(decimal_number());
   command->add_option("--flow-units", options->flow_units,
                       "Discharge in: " + units::flow_choices() +
                           " (any case; default: the configuration's, m3/s or ft3/s)");

@@ -2,6 +2,9 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
+#include <cerrno>
+#include <cstdlib>
 #include <filesystem>
 #include <iostream>
 
@@ -73,6 +76,28 @@ std::optional<std::int64_t> parse_time_option(const std::string& text, std::stri
     return std::nullopt;
   }
   return *parsed;
+}
+
+CLI::Validator decimal_number() {
+  return CLI::Validator(
+      [](std::string& text) -> std::string {
+        const auto is_number = [](const std::string& t) {
+          if (t.empty()) return false;
+          char* end = nullptr;
+          errno = 0;
+          std::strtod(t.c_str(), &end);  // the "C" locale: the program never sets another
+          return end == t.c_str() + t.size() && errno != ERANGE;
+        };
+        if (is_number(text)) return {};
+        std::string dotted = text;
+        std::replace(dotted.begin(), dotted.end(), ',', '.');
+        if (dotted != text && is_number(dotted)) {
+          return fmt::format("'{}' has a decimal comma: write the decimal point as '.' ({})",
+                             text, dotted);
+        }
+        return fmt::format("'{}' is not a number", text);
+      },
+      "");
 }
 
 }  // namespace stagewell::cli

@@ -39,6 +39,11 @@ std::optional<Config> load_config_or_report(const std::string& path);
 std::optional<std::int64_t> parse_time_option(const std::string& text, std::string_view name,
                                               std::int64_t absent);
 
+// A check for number options (--stage, --flow, --step...): text that is a number with a decimal
+// comma ("1,23") is refused with a hint to write "1.23", anything else that is not a number with
+// a plain "not a number" message, before CLI11's generic conversion error.
+CLI::Validator decimal_number();
+
 // The site with this id, or prints the known ids to stderr and returns nullptr.
 const SiteConfig* find_site_or_report(const Config& config, const std::string& site_id);
 

@@ -7,6 +7,8 @@ every command that prints flow, and tables in round steps.
 - Conversions checked by closed form from the unit definitions (1 L = 0.001 m^3; 1 US gallon =
   231 in^3 = 0.003785411784 m^3; 1 ft = 0.3048 m, the 1959 international foot), applied here to
   stagewell's own figure in the configuration's unit.
+- A number typed with a decimal comma ("0,4") is refused with a hint to write "0.4", like the
+  readings' parser does.
 - A table in steps of 0.1 lists 0.3, not 0.30000000000000004 (the double nearest 0.3 printed in
   its shortest form, Python's repr: common practice for decimal steps).
 """
@@ -103,6 +105,16 @@ def main():
         bad = run(cli, "table", *base, "--flow-units", "furlongs", expect=2)
         R.check("an unknown unit names the choices", "L/s" in bad.stderr and "gal/min" in
                 bad.stderr, bad.stderr)
+
+        # A decimal comma: refused (exit 2) with the fix named, on each number option.
+        for command in (["flow", *base, "--stage", "0,4"], ["depth", *base, "--flow", "0,4"],
+                        ["table", *base, "--step", "0,5"]):
+            done = run(cli, *command, expect=2)
+            fixed = command[-1].replace(",", ".")
+            R.check(f"{command[0]} {command[-2]} {command[-1]}: the decimal point hint",
+                    "decimal" in done.stderr and f"({fixed})" in done.stderr, done.stderr)
+        done = run(cli, "flow", *base, "--stage", "high", expect=2)
+        R.check("a word for a number: 'not a number'", "not a number" in done.stderr, done.stderr)
 
         # daily and stats: volumes in litres and US gallons, units as UCUM codes.
         readings = os.path.join(tmp, "flume.csv")
