@@ -94,7 +94,10 @@ int run_flow(const FlowOptions& options) {
       state.discharge * units::to_m3_per_s(units::default_flow(system)) /
           units::to_m3_per_s(other_flow),
       units::symbol(other_flow));
-  row("Froude number", state.froude, state.froude > 1.0 ? "(supercritical)" : "(subcritical)");
+  row("Froude number", state.froude,
+      std::isnan(state.froude) ? "(flowing full: no free surface)"
+      : state.froude > 1.0     ? "(supercritical)"
+                               : "(subcritical)");
   std::cout << fmt::format("  {:<18}{:>12}\n", "flags",
                            state.flags.empty() ? "none" : state.flags.joined(' '));
   print_caution(std::cout);

@@ -85,8 +85,10 @@ int run_table(const TableOptions& options) {
     const double depth = site->depth_for_stage(stage, system);
     const auto state = channel->at_depth(depth);
     if (options.csv) {
+      // A full conduit has no Froude number: an empty field, which CSV readers take as missing.
+      const std::string froude = std::isnan(state.froude) ? "" : fmt::format("{}", state.froude);
       std::cout << fmt::format("{},{},{},{},{},{}\n", stage, depth, state.discharge, state.velocity,
-                               state.froude, state.flags.joined(' '));
+                               froude, state.flags.joined(' '));
     } else {
       std::cout << fmt::format("{:>12} {:>12} {:>14} {:>12} {:>8}  {}\n", format_number(stage),
                                format_number(depth), format_number(state.discharge),
