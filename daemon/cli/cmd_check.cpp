@@ -174,6 +174,8 @@ int run_check(const std::string& config_path, bool database) {
                   fmt::format("changes, from {}:", format_timestamp_utc(change.from_ms)));
     }
   }
+  std::cout << '\n';
+  print_caution(std::cout);
   if (database && !check_database(config->database)) return kInvalidInput;
   return kOk;
 }

@@ -270,6 +270,10 @@ def check_discharge_dips(binary, tmp):
     if proc.returncode != 0:
         failures.append(f"check on the overbank section exited {proc.returncode}: {proc.stderr}")
         return checks
+    # The usual caution is printed, since check prints discharges (README, "Cautions").
+    checks += 1
+    if "verify it with field measurements" not in out or "licensed engineer" not in out:
+        failures.append(f"check prints no caution:\n{out}")
     geom, _ = surveyed(OVERBANK_POINTS, [])
 
     def q_at(stage):
