@@ -97,7 +97,10 @@ int run_flow(const FlowOptions& options) {
         system == units::System::metric ? units::Flow::litres_per_s : units::Flow::us_gal_per_min;
     row("", flow_in(state.discharge, system, other_flow), units::symbol(other_flow));
   }
-  row("Froude number", state.froude, state.froude > 1.0 ? "(supercritical)" : "(subcritical)");
+  row("Froude number", state.froude,
+      std::isnan(state.froude) ? "(flowing full: no free surface)"
+      : state.froude > 1.0     ? "(supercritical)"
+                               : "(subcritical)");
   std::cout << fmt::format("  {:<18}{:>12}\n", "flags",
                            state.flags.empty() ? "none" : state.flags.joined(' '));
   print_caution(std::cout);

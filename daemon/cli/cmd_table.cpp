@@ -100,8 +100,10 @@ int run_table(const TableOptions& options) {
     const auto state = channel->at_depth(depth);
     const double discharge = flow_in(state.discharge, system, *flow_unit);
     if (options.csv) {
+      // A full conduit has no Froude number: an empty field, which CSV readers take as missing.
+      const std::string froude = std::isnan(state.froude) ? "" : fmt::format("{}", state.froude);
       std::cout << fmt::format("{},{},{},{},{},{}\n", stage, depth, discharge, state.velocity,
-                               state.froude, state.flags.joined(' '));
+                               froude, state.flags.joined(' '));
     } else {
       std::cout << fmt::format("{:>12} {:>12} {:>14} {:>12} {:>8}  {}\n", format_number(stage),
                                format_number(depth), format_number(discharge),

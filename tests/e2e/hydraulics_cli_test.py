@@ -11,6 +11,7 @@ import argparse
 import json
 import math
 import os
+import re
 import subprocess
 import sys
 import tempfile
@@ -118,7 +119,9 @@ def state(geom_fn, roughness, slope, k, g, y):
         if a > 0 and p > 0:
             q += k / n * a * (a / p) ** (2 / 3) * math.sqrt(slope)
     v = q / area if area > 0 else 0.0
-    froude = v / math.sqrt(g * area / top) if area > 0 and top > 0 else 0.0
+    # A full conduit (water, no top width) has no free surface and so no Froude number, which
+    # compares V with the speed of a surface wave, sqrt(g A/T) (common practice): None.
+    froude = v / math.sqrt(g * area / top) if area > 0 and top > 0 else (None if area > 0 else 0.0)
     return dict(area=area, wetted_perimeter=perim, hydraulic_radius=area / perim if perim else 0.0,
                 top_width=top, velocity=v, discharge=q, froude=froude,
                 hydraulic_depth=(area / top if top > 0 else (None if area > 0 else 0.0)))
@@ -172,6 +175,174 @@ def run(binary, *args):
     return json.loads(proc.stdout)
 
 
+def check_full_pipe_text(binary, tmp):
+    """A surcharged pipe's Froude number in the outputs for people and in CSV: missing, as its
+    hydraulic depth is, never 0 (which would read as still water). Returns the checks made."""
+    config = os.path.join(tmp, "metric.yaml")
+    # 1.2 m on a 0.9 m pipe: above the crown, so full (the reference's circular() above).
+    proc = subprocess.run([binary, "flow", "--config", config, "--site", "pipe", "--stage", "1.2"],
+                          capture_output=True, text=True)
+    line = [l for l in proc.stdout.splitlines() if l.strip().startswith("Froude number")]
+    if proc.returncode != 0 or len(line) != 1 or line[0].split()[2] != "n/a":
+        failures.append(f"flow text, full pipe: Froude line {line!r} (exit {proc.returncode})")
+    # The table from just below the crown to above it: the rows at and above 0.9 m are full.
+    proc = subprocess.run([binary, "table", "--config", config, "--site", "pipe", "--from", "0.8",
+                           "--to", "1.0", "--step", "0.1", "--csv"], capture_output=True, text=True)
+    rows = [l.split(",") for l in proc.stdout.splitlines()[1:]]
+    froude = {round(float(r[0]), 6): r[4] for r in rows if len(r) == 6}
+    if proc.returncode != 0 or froude.get(0.9) != "" or froude.get(1.0) != "" or \
+            not froude.get(0.8) or not math.isfinite(float(froude[0.8])):
+        failures.append(f"table --csv, full pipe: Froude fields {froude!r} (exit {proc.returncode})")
+    proc = subprocess.run([binary, "table", "--config", config, "--site", "pipe", "--from", "0.8",
+                           "--to", "1.0", "--step", "0.1"], capture_output=True, text=True)
+    # Columns: stage, depth, discharge, velocity, Froude, flags.
+    text = {l.split()[0]: l.split()[4] for l in proc.stdout.splitlines()
+            if l.strip() and l.split()[0] in ("0.8000", "0.9000", "1.000")}
+    if proc.returncode != 0 or text.get("0.9000") != "n/a" or text.get("1.000") != "n/a" or \
+            text.get("0.8000") in (None, "n/a", "0"):
+        failures.append(f"table, full pipe: Froude cells {text!r} (exit {proc.returncode})")
+    return 3
+
+
+# An invented surveyed section: a main channel 8 m wide at its bank tops (stations 60 and 68,
+# both at elevation 2.0 m) between wide overbanks that rise only 0.06-0.08 m over 58-62 m.
+OVERBANK_POINTS = [[0.0, 3.5], [2.0, 2.06], [60.0, 2.0], [62.0, 0.2], [63.0, 0.0], [66.0, 0.1],
+                   [68.0, 2.0], [130.0, 2.08], [134.0, 3.5]]
+OVERBANK_BANK_TOPS = (60.0, 68.0)
+
+
+def overbank_config(path, breaks, roughness):
+    section = {"shape": "surveyed", "points": OVERBANK_POINTS}
+    if breaks:
+        section["breaks"] = breaks
+    with open(path, "w") as f:
+        f.write("\n".join([
+            "units: metric", "database: test.db", "timezone: UTC", "sites:",
+            "  - id: meadow", "    name: meadow reach",
+            f"    section: {json.dumps(section)}",
+            f"    roughness: {json.dumps(roughness)}",
+            "    slope: 0.0012",
+            # Stage in cm, zero flow at a reading of 10 cm: stage = 100 * depth + 10.
+            "    stage: {units: cm, offset: 0.0, zero_flow: 10.0}"]) + "\n")
+
+
+def stage_cm(depth_m):
+    return 100.0 * depth_m + 10.0
+
+
+def depth_m(stage):
+    return (stage - 10.0) / 100.0
+
+
+def python_dips(breaks, roughness, steps=20000):
+    """The falls of discharge, scanned independently: Manning's equation Q = (1/n) A R^(2/3)
+    S^(1/2) on the clipped-segment geometry above (plain arithmetic), at equal steps and at each
+    surveyed height. Returns [(from_depth, to_depth, loss fraction)] of falls of 0.1 % or more."""
+    geom, top = surveyed(OVERBANK_POINTS, breaks)
+    zmin = min(z for _, z in OVERBANK_POINTS)
+    depths = sorted(set([top * i / steps for i in range(1, steps + 1)] +
+                        [z - zmin for _, z in OVERBANK_POINTS if 0 < z - zmin <= top]))
+    q = [state(geom, roughness, 0.0012, 1.0, G_SI, y)["discharge"] for y in depths]
+    dips, i = [], 0
+    while i + 1 < len(q):
+        if q[i + 1] < q[i]:
+            j = i + 1
+            while j + 1 < len(q) and q[j + 1] < q[j]:
+                j += 1
+            if 1 - q[j] / q[i] >= 0.001:
+                dips.append((depths[i], depths[j], 1 - q[j] / q[i]))
+            i = j
+        else:
+            i += 1
+    return dips
+
+
+def check_discharge_dips(binary, tmp):
+    """`stagewell check` on a section computed as one whose discharge falls where the water
+    spreads over a wide overbank: the fall's stages, discharges and loss against the independent
+    scan above, the bank tops named, and the suggested breaks that remove the fall."""
+    checks = 0
+    whole = os.path.join(tmp, "overbank.yaml")
+    overbank_config(whole, [], 0.035)
+    proc = subprocess.run([binary, "check", "--config", whole], capture_output=True, text=True)
+    out = proc.stdout
+    checks += 1
+    if proc.returncode != 0:
+        failures.append(f"check on the overbank section exited {proc.returncode}: {proc.stderr}")
+        return checks
+    # The usual caution is printed, since check prints discharges (README, "Cautions").
+    checks += 1
+    if "verify it with field measurements" not in out or "licensed engineer" not in out:
+        failures.append(f"check prints no caution:\n{out}")
+    geom, _ = surveyed(OVERBANK_POINTS, [])
+
+    def q_at(stage):
+        return state(geom, [0.035], 0.0012, 1.0, G_SI, depth_m(stage))["discharge"]
+
+    want = python_dips([], [0.035])
+    got = re.findall(r"discharge falls by ([0-9.]+) % as the stage rises from ([0-9.]+) to ([0-9.]+) cm\n"
+                     r"\s+\(([0-9.e+-]+) to ([0-9.e+-]+) m³/s\); back to ([0-9.e+-]+) m³/s only at "
+                     r"stage ([0-9.]+) cm", out)
+    checks += 1
+    if len(want) != 1 or len(got) != 1:
+        failures.append(f"overbank: the reference finds {len(want)} fall(s), check reports {len(got)}:\n{out}")
+        return checks
+    loss, start, end, q_start, q_end, q_back, back = (float(v) for v in got[0])
+    want_start, want_end, want_loss = want[0]
+    # The reference's fall, against the printed one (4 significant digits: 0.05 cm of stage; the
+    # trough lies on a flat bottom of Q, so its stage is within a few of both scans' steps).
+    checks += 4
+    if abs(start - stage_cm(want_start)) > 0.051:
+        failures.append(f"overbank: fall starts at {start} cm, reference {stage_cm(want_start):.4f} cm")
+    if abs(end - stage_cm(want_end)) > 0.051 + 100 * 3.5 * 3 / 20000:
+        failures.append(f"overbank: fall ends at {end} cm, reference {stage_cm(want_end):.4f} cm")
+    if abs(loss - 100 * want_loss) > 0.06:
+        failures.append(f"overbank: loss {loss} %, reference {100 * want_loss:.3f} %")
+    if want_loss < 0.5:
+        failures.append(f"overbank: the invented section should lose most of its discharge, "
+                        f"reference {100 * want_loss:.1f} %")
+    # Manning's equation at the printed stages: the printed discharges, and a fall between them.
+    checks += 3
+    for label, stage, printed in (("start", start, q_start), ("end", end, q_end), ("back", back, q_back)):
+        rel = 2e-3 if label != "back" else 5e-3
+        if not math.isclose(q_at(stage), printed, rel_tol=rel):
+            failures.append(f"overbank: Q at the {label} stage {stage} cm is {q_at(stage):.6g}, printed {printed}")
+    checks += 2
+    if not q_at(end) < q_at(start) * (1 - 0.9 * want_loss):
+        failures.append(f"overbank: Q({end}) = {q_at(end):.6g} is not well below Q({start}) = {q_at(start):.6g}")
+    if not (q_at(back - 0.1) < q_start < q_at(back + 0.1)):
+        failures.append(f"overbank: Q does not come back to {q_start} near stage {back} cm")
+    # The bank tops: where the water level at the fall's start meets the ground either side of the
+    # lowest point (found from the points here, independently).
+    level = min(z for _, z in OVERBANK_POINTS) + depth_m(start)
+    lowest = min(range(len(OVERBANK_POINTS)), key=lambda i: OVERBANK_POINTS[i][1])
+    left = next(x for x, z in reversed(OVERBANK_POINTS[:lowest]) if z >= level - 1e-3)
+    right = next(x for x, z in OVERBANK_POINTS[lowest + 1:] if z >= level - 1e-3)
+    checks += 3
+    if (left, right) != OVERBANK_BANK_TOPS:
+        failures.append(f"overbank: the reference's bank tops {left}, {right}")
+    banks = re.search(r"left bank top\s+station ([0-9.]+) m, stage ([0-9.]+) cm \(overtopped here\)\n"
+                      r"\s+right bank top\s+station ([0-9.]+) m, stage ([0-9.]+) cm \(overtopped here\)", out)
+    if not banks or (float(banks[1]), float(banks[3])) != (left, right) or \
+            abs(float(banks[2]) - stage_cm(2.0)) > 0.051 or abs(float(banks[4]) - stage_cm(2.0)) > 0.051:
+        failures.append(f"overbank: bank tops not named as stations {left} and {right} m at stage "
+                        f"{stage_cm(2.0)} cm:\n{out}")
+    suggested = re.search(r"`breaks: \[([0-9., ]+)\]` \(m\), and `roughness` with (\d+) values", out)
+    if not suggested or [float(v) for v in suggested[1].split(",")] != [left, right] or suggested[2] != "3":
+        failures.append(f"overbank: no suggestion of breaks at {left}, {right}:\n{out}")
+
+    # Divided at the suggested stations, the reference finds no fall, and neither does check.
+    divided = os.path.join(tmp, "overbank-divided.yaml")
+    overbank_config(divided, [left, right], [0.06, 0.035, 0.06])
+    proc = subprocess.run([binary, "check", "--config", divided], capture_output=True, text=True)
+    checks += 2
+    if python_dips([left, right], [0.06, 0.035, 0.06]):
+        failures.append("overbank divided: the reference still finds a fall")
+    if proc.returncode != 0 or "discharge falls" in proc.stdout or "suggest" in proc.stdout:
+        failures.append(f"overbank divided: check still warns (exit {proc.returncode}):\n{proc.stdout}")
+    return checks
+
+
 def main():
     parser = argparse.ArgumentParser()
     parser.add_argument("--bin-dir", required=True)
@@ -209,7 +380,7 @@ def main():
                         expect_flags.add("below_zero_flow")
                     if y > top:
                         expect_flags.add("surcharged" if cid == "pipe" else "above_section")
-                    if want["froude"] > 1:
+                    if want["froude"] is not None and want["froude"] > 1:
                         expect_flags.add("supercritical")
                     got_flags = set(got["flags"])
                     if cid == "pipe":  # a surcharged pipe is above its section too: either is fine
@@ -242,6 +413,9 @@ def main():
                     check(label + " critical_depth", got["critical_depth"], yc)
                     check(label + " normal_stage", got["normal_stage"], yn)
                     checked += 1
+
+        checked += check_full_pipe_text(binary, tmp)
+        checked += check_discharge_dips(binary, tmp)
 
         # Errors: a negative flow, and more than the pipe can carry (exit status 1).
         metric = os.path.join(tmp, "metric.yaml")

@@ -221,6 +221,49 @@ TEST_CASE("flatline: an out-of-range reading neither joins nor breaks the run") 
   CHECK(flags_of(checker, kT0 + 61 * kMinute, 1.0) == Flags(Flag::flatline));
 }
 
+TEST_CASE("flatline: a reading after a gap starts a new run (definition, see checks.hpp)") {
+  ChecksSpec spec = all_off();
+  spec.flatline_s = 3600;
+  spec.max_gap_s = 3600;
+  SiteChecker checker(spec);
+  CHECK(flags_of(checker, kT0, 1.0).empty());
+  // The same stage eight months (240 days) later: a gap, and the first reading of a new run.
+  const std::int64_t later = kT0 + 240 * 24 * kHour;
+  const std::int64_t now = later + kHour;
+  CHECK(flags_of(checker, later, 1.0, now) == Flags(Flag::gap));
+  // That run is flagged only once it lasts more than `flatline` itself.
+  CHECK(flags_of(checker, later + 30 * kMinute, 1.0, now).empty());
+  CHECK(flags_of(checker, later + kHour, 1.0, now + kHour).empty());
+  CHECK(flags_of(checker, later + kHour + 1, 1.0, now + kHour) == Flags(Flag::flatline));
+
+  // Exactly max_gap apart is not a gap ("more than"), so the run goes on.
+  SiteChecker edge(spec);
+  CHECK(flags_of(edge, kT0, 1.0).empty());
+  CHECK(flags_of(edge, kT0 + kHour, 1.0).empty());
+  CHECK(flags_of(edge, kT0 + 2 * kHour, 1.0) == Flags(Flag::flatline));
+  // Just past it is: a new run from here.
+  CHECK(flags_of(edge, kT0 + 3 * kHour + 1, 1.0) == Flags(Flag::gap));
+  CHECK(flags_of(edge, kT0 + 4 * kHour, 1.0).empty());
+
+  // With max_gap off, time never breaks a run.
+  spec.max_gap_s = 0;
+  SiteChecker no_gap(spec);
+  CHECK(flags_of(no_gap, kT0, 1.0).empty());
+  CHECK(flags_of(no_gap, later, 1.0, now) == Flags(Flag::flatline));
+}
+
+TEST_CASE("flatline: seed() applies the gap rule to the stored run") {
+  ChecksSpec spec = all_off();
+  spec.flatline_s = 3600;
+  spec.max_gap_s = 3600;
+  // A reading, then months offline, then the same stage again just before the restart.
+  const std::int64_t later = kT0 + 240 * 24 * kHour;
+  const std::vector<PastReading> stored{{kT0, 1.0}, {later, 1.0}};
+  SiteChecker checker(spec);
+  checker.seed(stored);
+  CHECK(flags_of(checker, later + 30 * kMinute, 1.0, later + kHour).empty());
+}
+
 TEST_CASE("late reading: gap is judged against its true previous reading in time") {
   ChecksSpec spec = all_off();
   spec.max_gap_s = 3600;

@@ -31,7 +31,8 @@ struct HydraulicState {
   double hydraulic_depth = 0.0;   // L: A/T; +inf when T = 0 with water (a full conduit)
   double velocity = 0.0;          // L/s: Q/A, 0 when dry
   double discharge = 0.0;         // L^3/s
-  double froude = 0.0;            // V/sqrt(g A/T); 0 when dry or T = 0
+  double froude = 0.0;            // V/sqrt(g A/T); 0 when dry; NaN when T = 0 with water (a full
+                                  // conduit has no free surface, so no Froude number)
   // below_zero_flow  depth <= 0 (or NaN): every other field is 0 and `depth` is as given.
   // above_section    an open section deeper than its top (the walls are taken to continue
   //                  vertically); never set for a closed conduit.

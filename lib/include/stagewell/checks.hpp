@@ -24,6 +24,9 @@
 //   flatline      the stage is exactly equal to that of every reading since a reading more than
 //                 `flatline` earlier: readings after the first `flatline` of a run of identical
 //                 values are flagged (the run's first readings are not). Off when flatline <= 0.
+//                 A run holds only readings at most max_gap apart (when max_gap > 0): a reading
+//                 more than max_gap after the run's latest reading starts a new run, even with
+//                 the same stage.
 //
 // Which readings are neighbours:
 //   - Out-of-range readings get only out_of_range, gap, late and future. They are kept for gap
@@ -121,6 +124,7 @@ class SiteChecker {
   std::optional<double> spike_level_;  // last in-range stage in arrival order
   std::optional<Excursion> excursion_;
   std::optional<std::int64_t> run_start_ms_;  // first reading of the current identical run
+  std::int64_t run_last_ms_ = 0;              // its latest reading (valid with run_start_ms_)
   double run_stage_ = 0.0;
 };
 

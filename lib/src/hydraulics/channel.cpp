@@ -115,7 +115,10 @@ HydraulicState Channel::at_depth(double depth) const {
       state.hydraulic_depth = state.area / state.top_width;
       state.froude = state.velocity / std::sqrt(gravity_ * state.hydraulic_depth);
     } else {
-      state.hydraulic_depth = std::numeric_limits<double>::infinity();  // a full conduit
+      // A full conduit: no free surface, so no surface wave to compare the velocity with. NaN
+      // (not 0, which reads as "still water") so that outputs show the number as missing.
+      state.hydraulic_depth = std::numeric_limits<double>::infinity();
+      state.froude = std::numeric_limits<double>::quiet_NaN();
     }
   }
   if (depth > section_->top_depth()) {

@@ -131,7 +131,11 @@ void SiteChecker::track_spike(std::int64_t time_ms, double stage, CheckResult& r
 
 void SiteChecker::track_flatline(std::int64_t time_ms, double stage, CheckResult& result) {
   // Exact equality on purpose: a live sensor's last digit wanders; a stuck one repeats itself.
-  if (run_start_ms_ && stage == run_stage_) {
+  // A gap ends the run: the same value read again after months offline says nothing about the
+  // sensor being stuck in between, since nothing was read in between.
+  const bool after_gap = max_gap_ms_ > 0 && time_ms - run_last_ms_ > max_gap_ms_;
+  run_last_ms_ = time_ms;
+  if (run_start_ms_ && stage == run_stage_ && !after_gap) {
     if (flatline_ms_ > 0 && time_ms - *run_start_ms_ > flatline_ms_) {
       result.flags.set(Flag::flatline);
     }
