@@ -13,11 +13,12 @@ config=config/demo.yaml
 demo=var/demo
 database=$demo/stagewell.db
 
-# A fresh demo every time: the history files are dropped into the incoming folder, and a stand-in
-# logger appends one raceway reading every 5 seconds to the file the service follows.
+# A fresh demo every time: the fortnight of history up to now (deploy/make_demo_data.py) is dropped
+# into the incoming folder, and a stand-in logger appends one raceway reading every 5 seconds to
+# the file the service follows.
 rm -rf "$demo"
 mkdir -p "$demo/incoming" "$demo/logger"
-cp config/demo-data/*.csv "$demo/incoming/"
+python3 deploy/make_demo_data.py history --out "$demo/incoming"
 touch -d '-1 minute' "$demo"/incoming/*.csv   # settled: the service leaves files being written alone
 
 "$bin/stagewell" check --config "$config" >/dev/null
