@@ -50,8 +50,8 @@ cat <<EOM
    log:       $(realpath "$demo")/stagewell.log
    drop CSV files (site,time,stage) into $(realpath "$demo/incoming")
 
-   The history is the fortnight up to $start (UTC). From now on every site reports every 10 s,
-   and a storm arrives; roughly how long after the start (README.md, "The demo"):
+   The history ends now ($start); from now on every site reports every 10 s
+   and a storm arrives. Roughly how long after the start (README.md, "The demo"):
      0          Brindlewick Creek has been rising for 12 minutes: rain in the hills
      1 min      the roadside ditch runs (the culvert from 1.5 min); raceway A is drawn down
      1-2.5 min  the creek's rising-stage alarm opens (faster than 0.5 m/h across an hour)
