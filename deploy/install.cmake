@@ -73,7 +73,7 @@ install(FILES man/stagewelld.8 DESTINATION "${CMAKE_INSTALL_MANDIR}/man8")
 install(FILES deploy/bash-completion/stagewell
         DESTINATION "${CMAKE_INSTALL_DATADIR}/bash-completion/completions")
 
-# Examples, not configurations: under the documentation, never in /etc. config/demo-data (the
-# demo's half a megabyte of CSV files, made by deploy/make_demo_data.py) stays in the source.
+# Examples, not configurations: under the documentation, never in /etc. The demo's readings
+# (deploy/make_demo_data.py, made when deploy/demo.sh starts) stay in the source.
 install(FILES config/demo.yaml config/reference.yaml
         DESTINATION "${CMAKE_INSTALL_DOCDIR}/examples")

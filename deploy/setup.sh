@@ -13,6 +13,7 @@ build_packages=(
   libcli11-dev            # command-line parsing
   nlohmann-json3-dev      # JSON output
   libcctz-dev             # IANA time zones
+  python3                 # the demo's readings (deploy/make_demo_data.py)
 )
 test_packages=(
   doctest-dev

@@ -82,12 +82,17 @@ TEST_CASE("config/demo.yaml loads and is the scenario it describes") {
   CHECK(demo.database == (kSource / "var/demo/stagewell.db").lexically_normal());
   REQUIRE(demo.log.file.has_value());
   CHECK(*demo.log.file == (kSource / "var/demo/stagewell.log").lexically_normal());
-  REQUIRE(demo.sources.size() == 2);
+  // The drop folder, the raceway logger's file and the radio gateway's file of the other sites
+  // (deploy/make_demo_data.py writes all three).
+  REQUIRE(demo.sources.size() == 3);
   CHECK(demo.sources[0].type == SourceSpec::Type::directory);
   CHECK(demo.sources[0].path == (kSource / "var/demo/incoming").lexically_normal());
   CHECK(demo.sources[1].type == SourceSpec::Type::tail);
   CHECK(demo.sources[1].path == (kSource / "var/demo/logger/raceway-a.csv").lexically_normal());
   CHECK(demo.sources[1].site == "raceway-a");
+  CHECK(demo.sources[2].type == SourceSpec::Type::tail);
+  CHECK(demo.sources[2].path == (kSource / "var/demo/logger/telemetry.csv").lexically_normal());
+  CHECK(!demo.sources[2].site.has_value());  // its site column says whose each reading is
 
   REQUIRE(demo.sites.size() == 5);
   CHECK(demo.find_site("raceway-a") != nullptr);

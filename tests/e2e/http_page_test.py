@@ -1,11 +1,11 @@
 #!/usr/bin/env python3
 """The status page in a real browser: headless Chromium (Debian's `chromium`) loads `/` from a
-daemon on the demo configuration (config/demo.yaml, its invented history, and the last day of
-each site's history moved to the last 24 hours so that the page has live figures), lets the
-page's script fetch the API, and dumps the resulting DOM. The numbers shown must match the
-database read directly, within the rounding the page shows; every number has its unit; the state
-is written in words; the caution is shown. Saves a screenshot to build/test-artefacts/."""
-import csv
+daemon on the demo configuration (config/demo.yaml, and its invented history made by
+deploy/make_demo_data.py to end a minute ago, as deploy/demo.sh makes it, so that the page has
+live figures), lets the page's script fetch the API, and dumps the resulting DOM. The numbers
+shown must match the database read directly, within the rounding the page shows; every number has
+its unit; the state is written in words; the caution is shown. Saves a screenshot to
+build/test-artefacts/."""
 import datetime
 import glob
 import html.parser
@@ -14,17 +14,16 @@ import re
 import shutil
 import subprocess
 import tempfile
-import time
 import zoneinfo
 
 import daemon_support as ds
+import demo_support as demo
 import http_support as hs
 
 R = ds.Results()
 CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
 BROWSER_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
                  "--disable-background-networking", "--hide-scrollbars"]
-RECENT = 144  # the last 144 readings (10 minutes apart) of each site become the last 24 hours
 
 
 class Fields(html.parser.HTMLParser):
@@ -83,8 +82,8 @@ def shown_close(label, text, want):
 
 
 def prepare_demo(source_dir, tmp, port):
-    """The demo configuration with its paths in `tmp` and http on `port`; its history in the
-    drop folder. Returns (config path, {site: [(ms, stage)] recent rows})."""
+    """The demo configuration with its paths in `tmp` and http on `port`; its history, ending a
+    minute ago, in the drop folder. Returns (config path, {site: readings in the history})."""
     with open(os.path.join(source_dir, "config", "demo.yaml")) as f:
         text = f.read()
     R.check("demo.yaml turns the status page on", "http:" in text and "127.0.0.1:8207" in text)
@@ -93,19 +92,19 @@ def prepare_demo(source_dir, tmp, port):
     ds.write(config, text)
     os.makedirs(os.path.join(tmp, "incoming"), exist_ok=True)
     os.makedirs(os.path.join(tmp, "logger"), exist_ok=True)
-    for path in glob.glob(os.path.join(source_dir, "config", "demo-data", "*.csv")):
-        shutil.copy(path, os.path.join(tmp, "incoming"))
-        past = time.time() - 60
-        os.utime(os.path.join(tmp, "incoming", os.path.basename(path)), (past, past))
-    recent = {}
-    end_ms = (int(time.time()) - 60) * 1000  # a minute ago: well within every site's max_gap
-    for path in sorted(glob.glob(os.path.join(source_dir, "config", "demo-data", "*.csv"))):
-        with open(path) as f:
-            rows = [r for r in csv.reader(line for line in f if not line.startswith("#"))][1:]
-        site = rows[0][0]
-        stages = [float(r[2]) for r in rows[-RECENT:]]
-        recent[site] = [(end_ms - (RECENT - 1 - i) * 600000, s) for i, s in enumerate(stages)]
-    return config, recent
+    # A minute ago: well within every site's max_gap.
+    end = datetime.datetime.now(datetime.timezone.utc).replace(microsecond=0) - \
+        datetime.timedelta(minutes=1)
+    history = os.path.join(tmp, "history")
+    made = demo.make_history(source_dir, end.isoformat(), history)
+    R.check("make_demo_data.py history ran", made.returncode == 0, made.stderr[-1000:])
+    counts = {}
+    for name in sorted(os.listdir(history)):
+        site = name.removesuffix(".csv")
+        counts[site] = len(demo.parsed(demo.rows_of(os.path.join(history, name)), site))
+        with open(os.path.join(history, name)) as f:
+            ds.drop_file(os.path.join(tmp, "incoming"), name, f.read())
+    return config, counts
 
 
 def run_browser(url, extra):
@@ -122,30 +121,26 @@ def main():
         ds.exit_with(R)
     with tempfile.TemporaryDirectory() as tmp:
         port = hs.free_port()
-        config, recent = prepare_demo(args.source_dir, tmp, port)
+        config, sites_read = prepare_demo(os.path.abspath(args.source_dir), tmp, port)
         db = os.path.join(tmp, "stagewell.db")
         with ds.Daemon(stagewelld, config, os.path.join(tmp, "daemon.log")).start() as daemon:
             R.check("http port opens", hs.wait_for_port(port))
             # The history is in once every file has left the drop folder (moved to done/).
             R.check("demo history read", ds.wait_until(
                 lambda: not glob.glob(os.path.join(tmp, "incoming", "*.csv")), 120))
-            history = ds.wait_until(lambda: ds.count(db, "SELECT count(*) FROM discharge"), 10)
-            for site, rows in recent.items():
-                ds.drop_file(os.path.join(tmp, "incoming"), f"recent-{site}.csv",
-                             hs.csv_text(site, rows))
-            R.check("recent readings stored", ds.wait_until(
+            R.check("every history reading stored", ds.wait_until(
                 lambda: ds.count(db, "SELECT count(*) FROM discharge") ==
-                history + RECENT * len(recent), 60),
-                (history, ds.count(db, "SELECT count(*) FROM discharge")))
+                sum(sites_read.values()), 60),
+                (sites_read, ds.count(db, "SELECT count(*) FROM discharge")))
             url = f"http://127.0.0.1:{port}/"
             dom = run_browser(url, ["--dump-dom"])
             R.check("chromium ran", dom.returncode == 0, dom.stderr.decode()[-1000:])
             parser = Fields()
             parser.feed(dom.stdout.decode())
             today = datetime.datetime.now(zoneinfo.ZoneInfo("America/Denver")).date().isoformat()
-            R.check("every demo site shown", sorted(parser.sites) == sorted(recent),
+            R.check("every demo site shown", sorted(parser.sites) == sorted(sites_read),
                     sorted(parser.sites))
-            for site in sorted(recent):
+            for site in sorted(sites_read):
                 shown = parser.sites.get(site, {})
                 units = parser.units.get(site, {})
                 row = ds.query(db, "SELECT stage, discharge, flags FROM discharge WHERE site = ? "
