@@ -154,9 +154,10 @@ void add_ingest_command(CLI::App& program, Action& chosen) {
       "ingest", "Read CSV files of stage readings into the database once (back-loading history)");
   auto options = std::make_shared<IngestOptions>();
   add_config_option(*command, options->config_path);
+  // Not CLI::ExistingFile: a file that is missing is a wrong file (exit 1, the others still read),
+  // not a wrong command line (exit 2).
   command->add_option("paths", options->paths, "CSV files (header line; site, time, stage columns)")
-      ->required()
-      ->check(CLI::ExistingFile);
+      ->required();
   command->add_option("-s,--site", options->site,
                       "Every line belongs to this site (the files then need no site column)");
   command->add_option("--time-zone", options->time_zone,
