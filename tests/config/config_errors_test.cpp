@@ -242,6 +242,23 @@ sources:                 # 8
                    11, "sources[0].time_zone = Mountain: unknown time zone");
 }
 
+TEST_CASE("a source's stage units are a length unit, as a site's are") {
+  expect_one_error(R"(
+units: metric            # 1
+database: flows.db       # 2
+sites:                   # 3
+  - id: outlet           # 4
+    section: {shape: circular, diameter: 0.9} # 5
+    roughness: 0.013     # 6
+    slope: 0.002         # 7
+sources:                 # 8
+  - type: directory      # 9
+    path: incoming       # 10
+    stage_units: furlong # 11
+)",
+                   11, "sources[0].stage_units = furlong: unknown unit; choose one of");
+}
+
 TEST_CASE("an unknown log level") {
   expect_one_error(R"(
 units: metric            # 1

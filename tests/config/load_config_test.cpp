@@ -49,13 +49,13 @@ TEST_CASE("config/reference.yaml documents every key of the configuration contra
   std::stringstream text;
   text << in.rdbuf();
   for (const char* key :
-       {"units",     "database",      "timezone",   "log",          "file",      "level",
-        "sources",   "type",          "path",       "site",         "columns",   "time",
-        "stage",     "time_zone",     "sites",      "id",           "name",      "section",
-        "shape",     "width",         "side_slope", "diameter",     "points",    "breaks",
-        "height",    "roughness",     "slope",      "offset",       "zero_flow", "checks",
-        "min_stage", "max_stage",     "spike",      "spike_window", "max_rate",  "flatline",
-        "max_gap",   "max_clock_skew"}) {
+       {"units",     "database",       "timezone",   "log",          "file",      "level",
+        "sources",   "type",           "path",       "site",         "columns",   "time",
+        "stage",     "time_zone",      "sites",      "id",           "name",      "section",
+        "shape",     "width",          "side_slope", "diameter",     "points",    "breaks",
+        "height",    "roughness",      "slope",      "offset",       "zero_flow", "checks",
+        "min_stage", "max_stage",      "spike",      "spike_window", "max_rate",  "flatline",
+        "max_gap",   "max_clock_skew", "stage_units"}) {
     CAPTURE(key);
     // Written as a key ("key:"), and named in a comment line that explains it.
     CHECK(text.str().find(std::string(key) + ":") != std::string::npos);
@@ -184,6 +184,7 @@ sources:
     site: feeder
     columns: {time: timestamp, stage: level_cm}
     time_zone: Z
+    stage_units: mm
 )");
   CHECK(config.database == "/var/lib/flows/flows.db");
   CHECK(config.timezone == "-07:00");
@@ -226,6 +227,7 @@ sources:
   CHECK(source.columns.time == "timestamp");
   CHECK(source.columns.stage == "level_cm");
   CHECK(source.time_zone == "Z");
+  CHECK(source.stage_units == units::Length::mm);
   CHECK(source.line == 22);
 }
 

@@ -129,8 +129,13 @@ def main():
         R.check("--again: no new rows", ds.count(db, "SELECT count(*) FROM discharge") == 18)
 
         # Exit statuses.
-        missing = run(stagewell, base + ["no-such.csv"], root)
-        R.check("a file that does not exist: exit 2 (command line)", missing.returncode == 2,
+        # A missing file is a wrong file, not a wrong command line (docs/command-line.md: 1 when
+        # "a file is wrong", 2 only for the command line itself); the other files are still read.
+        ds.write(os.path.join(root, "v.csv"), "site,time,stage\n" + line("b", 90, "0.4"))
+        missing = run(stagewell, base + ["no-such.csv", "v.csv"], root)
+        R.check("a file that does not exist: exit 1, named, the others still read",
+                missing.returncode == 1 and "no-such.csv" in missing.stderr and
+                ("b", T0 + 90 * MIN) in ds.stages(db, "b"),
                 f"{missing.returncode} {missing.stderr}")
         ds.write(os.path.join(root, "bad.yaml"), CONFIG.replace("roughness: 0.014",
                                                                 "roughness: 9"))

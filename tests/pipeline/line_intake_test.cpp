@@ -19,8 +19,8 @@ using Kind = LineOutcome::Kind;
 struct Harness : test::Service {
   std::int64_t number = 0;
 
-  LineIntake intake() {
-    auto made = LineIntake::create(SourceSpec{}, "test.csv", *ingestor);
+  LineIntake intake(const SourceSpec& spec = SourceSpec{}) {
+    auto made = LineIntake::create(spec, "test.csv", *ingestor);
     REQUIRE(made.has_value());
     return std::move(*made);
   }
@@ -102,6 +102,47 @@ TEST_CASE("skip reads the header only; assume_header gives the columns") {
   CHECK(h.take(assumed, "g1,2026-05-01T06:02:00Z,0.458").kind == Kind::stored);
   REQUIRE(h.ingestor->commit().has_value());
   CHECK(h.ingestor->counts().stored == 2);  // the skipped line was not stored
+}
+
+TEST_CASE("a source's stage_units: each stage converted to the site's stage units as read") {
+  Harness h;  // g1 and g2: metric, so stages in m
+  SourceSpec in_cm;
+  in_cm.stage_units = units::Length::cm;
+  auto cm = h.intake(in_cm);
+  h.take(cm, "site,time,stage");
+  CHECK(h.take(cm, "g1,2026-05-01T06:00:00Z,45.2").kind == Kind::stored);
+  SourceSpec in_mm;
+  in_mm.stage_units = units::Length::mm;
+  auto mm = h.intake(in_mm);
+  h.take(mm, "site,time,stage");
+  // 452 mm is the 0.452 m stored above (SI prefixes: 1 cm = 0.01 m, 1 mm = 0.001 m): a repeat.
+  CHECK(h.take(mm, "g1,2026-05-01T06:00:00Z,452").kind == Kind::repeat);
+  CHECK(h.take(mm, "g2,2026-05-01T06:00:00Z,1500").kind == Kind::stored);
+  SourceSpec in_inches;
+  in_inches.stage_units = units::Length::in;
+  auto inches = h.intake(in_inches);
+  h.take(inches, "site,time,stage");
+  CHECK(h.take(inches, "g1,2026-05-01T06:01:00Z,17.8").kind == Kind::stored);
+  auto metres = h.intake();  // no stage_units: the site's own
+  h.take(metres, "site,time,stage");
+  CHECK(h.take(metres, "g1,2026-05-01T06:02:00Z,0.452").kind == Kind::stored);
+  REQUIRE(h.ingestor->commit().has_value());
+
+  auto raw = test::raw_connection(h.dir.db());
+  const auto stage_of = [&](std::string_view site, std::string_view time) {
+    auto select = raw->prepare("SELECT stage FROM discharge WHERE site = ?1 AND time = ?2");
+    REQUIRE(select.has_value());
+    select->bind(1, site);
+    select->bind(2, time);
+    REQUIRE(select->step().value());
+    return select->column_double(0);
+  };
+  // The double the text "0.452" parses to: 45.2 cm is 45.2 / 100 m, rounded once.
+  CHECK(stage_of("g1", "2026-05-01T06:00:00Z") == 0.452);
+  CHECK(stage_of("g2", "2026-05-01T06:00:00Z") == 1.5);
+  // 1 in = 0.0254 m exactly (international yard and pound, 1959): 17.8 in = 0.45212 m.
+  CHECK(stage_of("g1", "2026-05-01T06:01:00Z") == doctest::Approx(0.45212).epsilon(1e-14));
+  CHECK(stage_of("g1", "2026-05-01T06:02:00Z") == 0.452);
 }
 
 }  // namespace

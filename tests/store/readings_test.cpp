@@ -209,6 +209,44 @@ TEST_CASE("an uncommitted batch is rolled back; one batch at a time") {
   CHECK_FALSE(batch->commit().has_value());  // finished
 }
 
+TEST_CASE("a source's rejects are removed in the batch: only that source's, all or nothing") {
+  TempDir dir;
+  Store store = test::open_store(dir.db());
+  const auto keep = [&](std::string_view source, std::string_view raw) {
+    auto batch = store.begin();
+    REQUIRE(batch.has_value());
+    REQUIRE(batch->add_reject({std::string(source), "line 2", std::string(raw), "bad_stage: x", 5})
+                .has_value());
+    REQUIRE(batch->commit().has_value());
+  };
+  keep("/data/a.csv", "a,1");
+  keep("/data/a.csv", "a,2");
+  keep("/data/b.csv", "b,1");
+  auto raw = raw_connection(dir.db());
+  const auto count = [&](std::string_view source) {
+    return query_int(*raw,
+                     "SELECT count(*) FROM rejects WHERE source = '" + std::string(source) + "'");
+  };
+  {
+    auto batch = store.begin();
+    REQUIRE(batch.has_value());
+    auto removed = batch->remove_rejects("/data/a.csv");
+    REQUIRE(removed.has_value());
+    CHECK(*removed == 2);
+  }  // not committed: rolled back
+  CHECK(count("/data/a.csv") == 2);
+  auto batch = store.begin();
+  REQUIRE(batch.has_value());
+  auto removed = batch->remove_rejects("/data/a.csv");
+  REQUIRE(removed.has_value());
+  CHECK(*removed == 2);
+  REQUIRE(batch->add_reject({"/data/a.csv", "line 3", "a,3", "bad_time: y", 6}).has_value());
+  REQUIRE(batch->commit().has_value());
+  CHECK(count("/data/a.csv") == 1);
+  CHECK(query_text(*raw, "SELECT raw FROM rejects WHERE source = '/data/a.csv'") == "a,3");
+  CHECK(count("/data/b.csv") == 1);  // another source's are kept
+}
+
 TEST_CASE("a configuration version: same text, same id; its hash is FNV-1a 64") {
   TempDir dir;
   Store store = test::open_store(dir.db());

@@ -163,6 +163,9 @@ struct SourceSpec {
   std::optional<std::string> site;  // every reading belongs to this site (no site column)
   ColumnNames columns;
   std::optional<std::string> time_zone;  // for timestamps written without an offset
+  // The unit the stages are written in, when not the site's (`sites[].stage.units`): each stage is
+  // converted to the site's stage units as it is read. Empty: the site's.
+  std::optional<units::Length> stage_units;
   int line = 0;
 };
 

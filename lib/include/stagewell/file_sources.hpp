@@ -5,7 +5,10 @@
 // so signals and other sources are never starved.
 //
 // Progress (file identity and byte offset) goes into the same transaction as the readings it
-// covers, under the source key "<kind>:<absolute path>".
+// covers, under the source key "<kind>:<absolute path>". A FileReader's identity also holds a
+// fingerprint of the bytes before the offset (and, when its owner gives one, of the settings the
+// file is read with), so that a file rewritten since, even to the same size, is read again from
+// its start rather than resumed in the middle of other lines.
 //
 // Every file access goes through a FileSystem (file_system.hpp): the real one unless a test
 // passes another, which must outlive the source.
@@ -29,13 +32,36 @@ namespace stagewell {
 // Bytes read from a file per read call.
 inline constexpr std::size_t kReadChunkBytes = 64 * 1024;
 
-// Reads one file from its stored progress to its end.
+// Where a FileReader begins, and why (FileReader::start()).
+enum class FileStart {
+  first,    // no earlier reading is stored under the key: from the start
+  resumed,  // an earlier reading stopped at done_bytes() (the end, when it finished), and the
+            // bytes before it are still those it read
+  changed,  // an earlier reading read another file at this path, or bytes since rewritten (not
+            // only appended to): from the start
+  read_differently,  // an earlier reading read it with other settings (FileReaderOptions::read_as):
+                     // from the start
+  again,  // an earlier reading is stored, and FileReaderOptions::from_start: from the start
+};
+
+struct FileReaderOptions {
+  // Names how the file is read (columns, site, time zone, stage units...): a stored progress
+  // written with another read_as is not resumed (FileStart::read_differently). Empty: not compared.
+  std::string read_as;
+  // Read from the start whatever an earlier reading stored (FileStart::again).
+  bool from_start = false;
+  // Told what became of every line read (StreamReader::set_line_observer).
+  StreamReader::LineObserver on_line;
+};
+
+// Reads one file from its stored progress to its end. Rejects name the file by `path` as given.
 class FileReader {
  public:
   static Result<std::unique_ptr<FileReader>> open(const std::filesystem::path& path,
                                                   const SourceSpec& spec, std::string source_key,
                                                   Ingestor& ingestor,
-                                                  FileSystem& files = posix_file_system());
+                                                  FileSystem& files = posix_file_system(),
+                                                  FileReaderOptions options = {});
   // Reads and processes up to `max_bytes`; true once the whole file is processed (the final
   // progress is then in the open batch: commit before acting on it).
   Result<bool> step(std::size_t max_bytes);
@@ -44,14 +70,20 @@ class FileReader {
   std::int64_t done_bytes() const { return reader_->consumed_bytes(); }
   std::int64_t lines() const { return reader_->lines(); }
   const std::filesystem::path& path() const { return path_; }
+  FileStart start() const { return start_; }
 
  private:
   FileReader() = default;
+  // Opens the file at path_ (again), and a reader at its start.
+  Result<void> open_file(const SourceSpec& spec, FileSystem& files);
   // Stores how far the file is processed, in the open batch.
   Result<void> save_progress();
   std::filesystem::path path_;
   std::string source_key_;
-  std::string identity_;
+  std::string identity_;      // device:inode
+  std::string settings_hex_;  // fingerprint of FileReaderOptions::read_as; empty without one
+  StreamReader::LineObserver on_line_;
+  FileStart start_ = FileStart::first;
   std::unique_ptr<ReadableFile> file_;
   std::int64_t size_ = 0;
   std::unique_ptr<StreamReader> reader_;

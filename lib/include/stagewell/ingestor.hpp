@@ -101,6 +101,10 @@ class Ingestor {
   // metrics (a RejectKind name, or "bad_header"); `reason` a sentence for a person.
   Result<void> reject(std::string_view kind, std::string_view reason, const SourcePosition& at);
 
+  // Removes the rejects kept from `source` (SourcePosition::source), in the open batch: for a
+  // source read again from its start. Returns how many were removed.
+  Result<std::int64_t> remove_rejects(std::string_view source);
+
   // Records how far `source_key` has been read; committed with the readings before it.
   Result<void> record_progress(std::string_view source_key, const IngestProgress& progress);
 

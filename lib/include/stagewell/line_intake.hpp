@@ -8,6 +8,8 @@
 // Not thread-safe: one per stream, used on the thread that owns the Ingestor.
 #pragma once
 
+#include <cstdint>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -15,6 +17,7 @@
 #include "stagewell/line_splitter.hpp"
 #include "stagewell/records.hpp"
 #include "stagewell/result.hpp"
+#include "stagewell/units.hpp"
 
 namespace stagewell {
 
@@ -61,11 +64,19 @@ class LineIntake {
   const std::string& source_name() const { return source_name_; }
 
  private:
-  LineIntake(std::string source_name, Ingestor& ingestor, RecordParser parser);
+  LineIntake(std::string source_name, Ingestor& ingestor, RecordParser parser,
+             std::optional<units::Length> stage_units);
+  // The record's stage in its site's stage units, from the source's stage_units.
+  double site_stage(const Record& record);
 
   std::string source_name_;
   Ingestor* ingestor_;
   RecordParser parser_;
+  std::optional<units::Length> stage_units_;  // SourceSpec::stage_units
+  // The last site converted for, and the integers its stages are multiplied and divided by.
+  std::string factor_site_;
+  std::int64_t multiply_by_ = 1;
+  std::int64_t divide_by_ = 1;
 };
 
 }  // namespace stagewell

@@ -147,6 +147,9 @@ class WriteBatch {
   Result<bool> add_flags(SiteKey site, std::int64_t time_ms, Flags flags);
 
   Result<void> add_reject(const Reject& reject);
+  // Removes every reject kept from `source` (a file about to be read again from its start, whose
+  // lines will be judged anew). Returns how many were removed.
+  Result<std::int64_t> remove_rejects(std::string_view source);
 
   // Sets how far `source` has been read.
   Result<void> set_progress(std::string_view source, const IngestProgress& progress);

@@ -107,7 +107,9 @@ inline constexpr std::size_t max_reject_raw_bytes = 4096;
 
 // How far a source has been read.
 struct IngestProgress {
-  std::string file_identity;     // which file the offset belongs to, e.g. "2049:1311" (dev:inode)
+  // Which file the offset belongs to, e.g. "2049:1311" (dev:inode); a FileReader's also holds
+  // fingerprints of the bytes before the offset and of its settings (file_sources.hpp).
+  std::string file_identity;
   std::int64_t byte_offset = 0;  // bytes consumed
   std::int64_t updated_ms = 0;   // when it was written
 };

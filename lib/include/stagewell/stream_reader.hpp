@@ -7,11 +7,13 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <memory>
 #include <optional>
 #include <string>
 #include <string_view>
 
+#include "stagewell/byte_fingerprint.hpp"
 #include "stagewell/ingestor.hpp"
 #include "stagewell/line_intake.hpp"
 #include "stagewell/line_splitter.hpp"
@@ -42,7 +44,15 @@ class StreamReader {
   // finish(). A line over the limit is held back whole — its reject is made only when its end
   // arrives — so that a restart never resumes inside a line nor repeats the reject of one.
   std::int64_t consumed_bytes() const { return consumed_bytes_; }
+  // The fingerprint of the first consumed_bytes() bytes of the stream (fed or skipped): stored
+  // with the progress, it tells a file that only grew from one rewritten.
+  const ByteFingerprint& consumed_fingerprint() const { return consumed_fingerprint_; }
   std::int64_t lines() const { return lines_; }
+
+  // Told what became of every line processed (not of lines skipped), after the Ingestor took it:
+  // for a summary of the stream. Empty: nobody is told.
+  using LineObserver = std::function<void(const Line& line, const LineOutcome& outcome)>;
+  void set_line_observer(LineObserver observer) { observer_ = std::move(observer); }
   const std::string& source_name() const { return intake_.source_name(); }
 
  private:
@@ -51,6 +61,9 @@ class StreamReader {
   void process(const Line& line);
   // Counts the line ends in `chunk` (just fed or skipped) and moves consumed_bytes_ past the last.
   void note_line_ends(std::string_view chunk);
+  // Adds `chunk`, which began at byte `start` of the stream, to the fingerprints: the fed bytes',
+  // and the consumed bytes' up to consumed_bytes_. REQUIRES: consumed_bytes_ is up to date.
+  void fingerprint(std::string_view chunk, std::int64_t start);
   void release_held();
 
   // A line over the limit whose end has not arrived yet: its first max_line_bytes bytes.
@@ -66,6 +79,9 @@ class StreamReader {
   std::int64_t line_ends_ = 0;       // '\n' bytes fed or skipped: line N ends at the N-th
   std::int64_t lines_ = 0;
   std::optional<HeldLine> held_;
+  ByteFingerprint fed_fingerprint_;       // of the fed_bytes_ bytes
+  ByteFingerprint consumed_fingerprint_;  // of the consumed_bytes_ bytes
+  LineObserver observer_;
   bool skipping_ = false;
   bool skipped_to_line_end_ = true;  // false: the skip stopped after a line finish() processed
   Result<void> status_;              // the first store failure, sticky

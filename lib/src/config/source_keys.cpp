@@ -77,6 +77,7 @@ std::vector<Key<SourceSpec>> source_keys(std::optional<SourceSpec::Type> type) {
       {"site", optional(), into(identifier(), &SourceSpec::site)},
       {"columns", defaults("{}"), read_columns},
       {"time_zone", optional(), into(time_zone(), &SourceSpec::time_zone)},
+      {"stage_units", optional(), into(length_unit(), &SourceSpec::stage_units)},
   };
   for (const auto& key : tcp_source_keys()) {
     keys.push_back({key.name, presence(tcp, key.presence, "only by tcp"), key.store});

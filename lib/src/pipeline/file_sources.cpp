@@ -4,8 +4,10 @@
 #include <spdlog/spdlog.h>
 
 #include <algorithm>
+#include <string_view>
 #include <vector>
 
+#include "stagewell/byte_fingerprint.hpp"
 #include "stagewell/timestamp.hpp"
 
 namespace stagewell {
@@ -44,36 +46,99 @@ Result<void> not_regular(const fs::path& path) {
 
 // ---- FileReader -------------------------------------------------------------------------------
 
+namespace {
+
+// A FileReader's stored identity: "<device:inode> bytes=<fingerprint of the bytes before the
+// offset>[ settings=<fingerprint of read_as>]". An identity written before the fingerprints were
+// kept has neither: the offset is then trusted as it always was.
+struct ReaderIdentity {
+  std::string file;      // device:inode
+  std::string bytes;     // empty when not stored
+  std::string settings;  // empty when not stored
+};
+
+ReaderIdentity parse_identity(std::string_view text) {
+  ReaderIdentity out;
+  std::size_t at = 0;
+  bool first = true;
+  while (at <= text.size()) {
+    const auto end = std::min(text.find(' ', at), text.size());
+    const std::string_view word = text.substr(at, end - at);
+    if (first) {
+      out.file = std::string(word);
+      first = false;
+    } else if (word.starts_with("bytes=")) {
+      out.bytes = std::string(word.substr(6));
+    } else if (word.starts_with("settings=")) {
+      out.settings = std::string(word.substr(9));
+    }
+    at = end + 1;
+  }
+  return out;
+}
+
+}  // namespace
+
+Result<void> FileReader::open_file(const SourceSpec& spec, FileSystem& files) {
+  auto file = files.open_read(path_);
+  if (!file) return std::unexpected(file.error());
+  auto status = (*file)->status();
+  if (!status) return std::unexpected(status.error());
+  if (!status->regular) return not_regular(path_);
+  auto reader = StreamReader::create(spec, path_.string(), *ingestor_);
+  if (!reader) return std::unexpected(reader.error());
+  if (on_line_) (*reader)->set_line_observer(on_line_);
+  file_ = std::move(*file);
+  identity_ = std::move(status->identity);
+  size_ = status->size_bytes;
+  reader_ = std::move(*reader);
+  return {};
+}
+
 Result<std::unique_ptr<FileReader>> FileReader::open(const fs::path& path, const SourceSpec& spec,
                                                      std::string source_key, Ingestor& ingestor,
-                                                     FileSystem& files) {
+                                                     FileSystem& files, FileReaderOptions options) {
   std::unique_ptr<FileReader> out(new FileReader());
   out->path_ = path;
   out->source_key_ = std::move(source_key);
   out->ingestor_ = &ingestor;
-  auto file = files.open_read(path);
-  if (!file) return std::unexpected(file.error());
-  out->file_ = std::move(*file);
-  auto status = out->file_->status();
-  if (!status) return std::unexpected(status.error());
-  if (!status->regular) return std::unexpected(not_regular(path).error());
-  out->identity_ = std::move(status->identity);
-  out->size_ = status->size_bytes;
-
-  auto reader = StreamReader::create(spec, path.string(), ingestor);
-  if (!reader) return std::unexpected(reader.error());
-  out->reader_ = std::move(*reader);
+  out->on_line_ = std::move(options.on_line);
+  if (!options.read_as.empty()) {
+    ByteFingerprint settings;
+    settings.add(options.read_as);
+    out->settings_hex_ = settings.hex();
+  }
+  if (auto opened = out->open_file(spec, files); !opened) return std::unexpected(opened.error());
 
   auto stored = ingestor.committed_progress(out->source_key_);
   if (!stored) return std::unexpected(stored.error());
-  std::int64_t offset = 0;
-  if (*stored && (*stored)->file_identity == out->identity_ &&
-      (*stored)->byte_offset <= out->size_) {
-    offset = (*stored)->byte_offset;
+  if (!*stored || (*stored)->file_identity.empty()) return out;  // FileStart::first
+  if (options.from_start) {
+    out->start_ = FileStart::again;
+    return out;
   }
-  if (auto skipped = skip_prefix(*out->file_, offset, *out->reader_); !skipped) {
+  const ReaderIdentity earlier = parse_identity((*stored)->file_identity);
+  if (earlier.file != out->identity_ || (*stored)->byte_offset > out->size_) {
+    out->start_ = FileStart::changed;
+    return out;
+  }
+  if (!earlier.settings.empty() && !out->settings_hex_.empty() &&
+      earlier.settings != out->settings_hex_) {
+    out->start_ = FileStart::read_differently;
+    return out;
+  }
+  if (auto skipped = skip_prefix(*out->file_, (*stored)->byte_offset, *out->reader_); !skipped) {
     return std::unexpected(skipped.error());
   }
+  if (!earlier.bytes.empty() && earlier.bytes != out->reader_->consumed_fingerprint().hex()) {
+    // Rewritten since (the same length or longer): the lines read before are not these.
+    out->start_ = FileStart::changed;
+    if (auto reopened = out->open_file(spec, files); !reopened) {
+      return std::unexpected(reopened.error());
+    }
+    return out;
+  }
+  out->start_ = FileStart::resumed;
   return out;
 }
 
@@ -108,8 +173,11 @@ Result<bool> FileReader::step(std::size_t max_bytes) {
 }
 
 Result<void> FileReader::save_progress() {
-  return ingestor_->record_progress(source_key_,
-                                    {identity_, reader_->consumed_bytes(), ingestor_->now_ms()});
+  std::string identity =
+      fmt::format("{} bytes={}", identity_, reader_->consumed_fingerprint().hex());
+  if (!settings_hex_.empty()) identity += " settings=" + settings_hex_;
+  return ingestor_->record_progress(
+      source_key_, {std::move(identity), reader_->consumed_bytes(), ingestor_->now_ms()});
 }
 
 // ---- DropFolder -------------------------------------------------------------------------------

@@ -410,6 +410,12 @@ Result<void> Ingestor::reject(std::string_view kind, std::string_view reason,
   return {};
 }
 
+Result<std::int64_t> Ingestor::remove_rejects(std::string_view source) {
+  auto batch = this->batch();
+  if (!batch) return std::unexpected(batch.error());
+  return (*batch)->remove_rejects(source);
+}
+
 Result<void> Ingestor::record_progress(std::string_view source_key,
                                        const IngestProgress& progress) {
   auto batch = this->batch();

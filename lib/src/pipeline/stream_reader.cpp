@@ -21,11 +21,13 @@ StreamReader::StreamReader(LineIntake intake, std::size_t max_line_bytes)
 Result<void> StreamReader::feed(std::string_view chunk) {
   if (chunk.empty()) return status_;
   skipped_to_line_end_ = true;  // the stream goes on: whatever the skip ended in continues
+  const std::int64_t start = fed_bytes_;
   fed_bytes_ += static_cast<std::int64_t>(chunk.size());
   splitter_.feed(chunk, [this](const Line& line) { on_line(line); });
   note_line_ends(chunk);
   // A held line whose end came in this chunk, with no later line after it to release it.
   if (held_ && line_ends_ >= held_->number) release_held();
+  fingerprint(chunk, start);
   return status_;
 }
 
@@ -37,11 +39,14 @@ Result<void> StreamReader::finish() {
   skipping_ = false;
   if (held_) release_held();  // the end of the stream ends a held line too
   consumed_bytes_ = fed_bytes_;
+  consumed_fingerprint_ = fed_fingerprint_;
   return status_;
 }
 
 void StreamReader::skip(std::string_view chunk) {
   skipping_ = true;
+  fed_fingerprint_.add(chunk);
+  consumed_fingerprint_ = fed_fingerprint_;
   fed_bytes_ += static_cast<std::int64_t>(chunk.size());
   splitter_.feed(chunk, [this](const Line& line) { on_line(line); });
   note_line_ends(chunk);
@@ -56,6 +61,20 @@ void StreamReader::note_line_ends(std::string_view chunk) {
   line_ends_ += ends;
   const auto after_last = static_cast<std::int64_t>(chunk.size() - (chunk.rfind('\n') + 1));
   consumed_bytes_ = fed_bytes_ - after_last;
+}
+
+void StreamReader::fingerprint(std::string_view chunk, std::int64_t start) {
+  // consumed_bytes_ only moves forward, to a line end: when it is inside this chunk, the bytes
+  // before it finish the consumed fingerprint; when it is before the chunk (a held line goes on),
+  // the consumed fingerprint stays as it was.
+  if (consumed_bytes_ < start) {
+    fed_fingerprint_.add(chunk);
+    return;
+  }
+  const auto split = static_cast<std::size_t>(consumed_bytes_ - start);
+  fed_fingerprint_.add(chunk.substr(0, split));
+  consumed_fingerprint_ = fed_fingerprint_;
+  fed_fingerprint_.add(chunk.substr(split));
 }
 
 void StreamReader::release_held() {
@@ -84,9 +103,14 @@ void StreamReader::process(const Line& line) {
     intake_.skip(line);
     return;
   }
-  // What became of the line matters to a socket's replies, not to a file's progress: only a
-  // failure of the store does.
-  if (auto taken = intake_.take(line); !taken) status_ = std::unexpected(std::move(taken.error()));
+  // What became of the line matters to a socket's replies and to a summary, not to a file's
+  // progress: only a failure of the store does.
+  auto taken = intake_.take(line);
+  if (!taken) {
+    status_ = std::unexpected(std::move(taken.error()));
+    return;
+  }
+  if (observer_) observer_(line, *taken);
 }
 
 }  // namespace stagewell

@@ -262,6 +262,18 @@ Result<void> WriteBatch::add_reject(const Reject& reject) {
   return spoil_on_error(s.run());
 }
 
+Result<std::int64_t> WriteBatch::remove_rejects(std::string_view source) {
+  if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
+  auto remove = store_->connection->cached("DELETE FROM rejected_lines WHERE source = ?1");
+  if (!remove) return spoil_on_error(Result<std::int64_t>(std::unexpected(remove.error())));
+  auto& s = **remove;
+  s.bind(1, source);
+  if (auto ran = s.run(); !ran) {
+    return spoil_on_error(Result<std::int64_t>(std::unexpected(ran.error())));
+  }
+  return store_->connection->changes();
+}
+
 Result<void> WriteBatch::set_progress(std::string_view source, const IngestProgress& progress) {
   if (auto ok = check_usable(); !ok) return ok;
   if (progress.byte_offset < 0) {
