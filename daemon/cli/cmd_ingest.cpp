@@ -16,6 +16,7 @@
 
 #include "commands.hpp"
 #include "ingest_report.hpp"
+#include "output_format.hpp"
 #include "progress.hpp"
 #include "stagewell/file_sources.hpp"
 #include "stagewell/ingestor.hpp"
@@ -116,6 +117,7 @@ void print_summary(const IngestCounts& counts, std::int64_t files) {
       std::cout << fmt::format("  {:<18}{:>10}\n", reason, count);
     }
   }
+  if (counts.stored > 0) print_caution(std::cout);  // each stored reading carries a discharge
 }
 
 // After SIGINT or SIGTERM: commit what was read, summarise, and exit with 128 + the signal's

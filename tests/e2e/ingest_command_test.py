@@ -109,6 +109,9 @@ def main():
                 {"out_of_range"})
         R.check("non-terminal progress: plain lines ending at 100%",
                 "100.0%" in done.stderr and "\r" not in done.stderr, done.stderr)
+        # The usual caution under stored discharges (README, "Cautions": common practice).
+        R.check("first run: the caution under the summary",
+                "estimate" in done.stdout and "field measurements" in done.stdout, done.stdout)
 
         # Second run: both files are finished; nothing is read again.
         again = run(stagewell, base + ["x.csv", "y.csv"], root)
@@ -119,6 +122,8 @@ def main():
         R.check("second run: says the files were read before",
                 again.stderr.count("already read to its end") == 2, again.stderr)
         R.check("second run: no new rejects", len(ds.rejects(db)) == 3)
+        R.check("second run: nothing stored, no caution", "estimate" not in again.stdout,
+                again.stdout)
 
         # --again: every line read again; readings are repeats, bad lines are rejected again.
         forced = run(stagewell, base + ["--again", "x.csv"], root)
