@@ -331,10 +331,10 @@ def main():
             by_id = {s["id"]: s for s in data["sites"]}
             R.check("api: open alarms only", by_id["channel"]["alarms"] == [
                 {"kind": "high_flow", "raised": "2026-05-01T10:00:00Z", "value": 0.52,
-                 "threshold": 0.5}], by_id["channel"]["alarms"])
+                 "threshold": 0.5, "unit": "m3/s"}], by_id["channel"]["alarms"])
             R.check("api: the other site's open alarm", by_id["canal"]["alarms"] == [
                 {"kind": "stale", "raised": "2026-05-01T11:00:00Z", "value": 900.0,
-                 "threshold": 600.0}], by_id["canal"]["alarms"])
+                 "threshold": 600.0, "unit": "s"}], by_id["canal"]["alarms"])
             R.check("api: no alarm on the silent site", by_id["silent"]["alarms"] == [])
             R.check("api: alarms available", data["alarms_available"] is True)
             R.check("daemon stops cleanly (2)", daemon.stop() == 0, daemon.log()[-2000:])

@@ -3,7 +3,10 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <map>
 #include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
 
 #include "stagewell/units.hpp"
 #include "web/state.hpp"
@@ -42,26 +45,52 @@ Result<json> day_figures(StatusApi::State& state, SiteKey key, daily::Day day) {
 }
 
 // Open alarms by site id, each site's in kind order.
-Result<std::map<std::string, json>> open_alarms(StatusApi::State& state) {
-  std::map<std::string, json> by_site;
+Result<std::map<std::string, std::vector<alarms::AlarmRecord>>> open_alarms(
+    StatusApi::State& state) {
+  std::map<std::string, std::vector<alarms::AlarmRecord>> by_site;
   auto open = state.store.open_alarms();
   if (!open) return std::unexpected(open.error());
   std::stable_sort(open->begin(), open->end(), [](const auto& a, const auto& b) {
     return std::pair(std::string_view(a.site), alarms::name(a.kind)) <
            std::pair(std::string_view(b.site), alarms::name(b.kind));
   });
-  for (const alarms::AlarmRecord& alarm : *open) {
-    by_site[alarm.site].push_back({{"kind", alarms::name(alarm.kind)},
-                                   {"raised", format_timestamp_utc(alarm.raised_ms)},
-                                   {"value", alarm.value},
-                                   {"threshold", alarm.threshold}});
-  }
+  for (alarms::AlarmRecord& alarm : *open) by_site[alarm.site].push_back(std::move(alarm));
   return by_site;
+}
+
+// The UCUM code of an alarm's value and threshold (alarms.hpp): discharge for the flow alarms,
+// seconds for stale, the site's stage unit per hour for rising. A reader needs it to show the
+// numbers with their unit.
+std::string alarm_unit(alarms::AlarmKind kind, const SiteConfig& site, units::System system) {
+  switch (kind) {
+    case alarms::AlarmKind::low_flow:
+    case alarms::AlarmKind::high_flow:
+      return std::string(units::ucum_discharge(system));
+    case alarms::AlarmKind::stale:
+      return "s";
+    case alarms::AlarmKind::rising:
+      return std::string(units::ucum(site.stage.units)) + "/h";
+  }
+  return "";
+}
+
+json alarm_entries(const std::vector<alarms::AlarmRecord>& open, const SiteConfig& site,
+                   units::System system) {
+  json entries = json::array();
+  for (const alarms::AlarmRecord& alarm : open) {
+    entries.push_back({{"kind", alarms::name(alarm.kind)},
+                       {"raised", format_timestamp_utc(alarm.raised_ms)},
+                       {"value", alarm.value},
+                       {"threshold", alarm.threshold},
+                       {"unit", alarm_unit(alarm.kind, site, system)}});
+  }
+  return entries;
 }
 
 // One site as /api/sites lists it and /api/sites/{id} answers it.
 Result<json> site_entry(StatusApi::State& state, const SiteConfig& site,
-                        const std::map<std::string, json>& alarms, daily::Day today,
+                        const std::map<std::string, std::vector<alarms::AlarmRecord>>& alarms,
+                        daily::Day today,
                         std::int64_t now_ms) {
   const auto system = state.config.units;
   json entry{
@@ -91,7 +120,9 @@ Result<json> site_entry(StatusApi::State& state, const SiteConfig& site,
     if (!figures) return std::unexpected(figures.error());
     entry["today"] = std::move(*figures);
   }
-  if (auto found = alarms.find(site.id); found != alarms.end()) entry["alarms"] = found->second;
+  if (auto found = alarms.find(site.id); found != alarms.end()) {
+    entry["alarms"] = alarm_entries(found->second, site, system);
+  }
   return entry;
 }
 
