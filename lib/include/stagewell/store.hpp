@@ -34,6 +34,7 @@
 
 #include "stagewell/alarm_table.hpp"
 #include "stagewell/daily_table.hpp"
+#include "stagewell/gaugings_table.hpp"
 #include "stagewell/readings_table.hpp"
 #include "stagewell/result.hpp"
 #include "stagewell/store_options.hpp"
@@ -105,6 +106,7 @@ class Store {
   DailyTable daily();
   AlarmTable alarms();
   RecomputationRunsTable recomputation_runs();
+  GaugingsTable gaugings();
 
   // Whether stored readings may have changed since `seen` was taken — committed by another
   // connection (another process), or rewritten through this store (ReadingsTable::rewrite) — and

@@ -143,9 +143,8 @@ Result<Store> Store::open(const std::filesystem::path& path, const StoreOptions&
   // made 0666 less the umask instead (0660 for the service), before the -wal and -shm files
   // exist: SQLite gives those the database file's mode.
   if (created) {
-    std::filesystem::permissions(
-        path, std::filesystem::perms(0666 & ~current_umask()),
-        std::filesystem::perm_options::replace, ec);
+    std::filesystem::permissions(path, std::filesystem::perms(0666 & ~current_umask()),
+                                 std::filesystem::perm_options::replace, ec);
   }
   if (auto ok = configure_writer(**connection); !ok) {
     return std::unexpected(explain_unwritable(path, directory, ok.error()));
@@ -206,6 +205,7 @@ ProgressTable Store::progress() { return ProgressTable(core_.get()); }
 DailyTable Store::daily() { return DailyTable(core_.get()); }
 AlarmTable Store::alarms() { return AlarmTable(core_.get()); }
 RecomputationRunsTable Store::recomputation_runs() { return RecomputationRunsTable(core_.get()); }
+GaugingsTable Store::gaugings() { return GaugingsTable(core_.get()); }
 
 Result<bool> Store::stored_readings_changed(ReadingsMark& seen) {
   // data_version changes when another connection commits; this store's own commits, the rewrites
