@@ -29,6 +29,8 @@ int main(int argc, char** argv) {
   add_backup_command(program, chosen);
   add_export_command(program, chosen);
   add_units_command(program, chosen);
+  add_gaugings_command(program, chosen);
+  add_calibrate_command(program, chosen);
 
   try {
     program.parse(argc, argv);
