@@ -19,6 +19,7 @@ import os
 import subprocess
 import sys
 import tempfile
+import xml.etree.ElementTree as ET
 
 import numpy
 import scipy.stats
@@ -59,6 +60,47 @@ def flow(stage, n):
 def stage_at(i):
     """Invented smooth stage, m."""
     return round(0.6 + 0.3 * math.sin(2 * math.pi * i / 144), 4)
+
+
+SVG = "{http://www.w3.org/2000/svg}"
+
+
+def group(root, cls):
+    return [g for g in root.iter(f"{SVG}g") if g.get("class") == cls]
+
+
+def tick_map(g, anchor, coordinate, offset):
+    """value -> pixel from one axis group's tick labels (x labels centred under their line, y
+    labels drawn 4 px below theirs)."""
+    ticks = [(float(t.text), float(t.get(coordinate)) - offset) for t in g.findall(f"{SVG}text")
+             if t.get("text-anchor") == anchor and t.text.replace(".", "").replace("-", "").isdigit()]
+    (v0, p0), (v1, p1) = ticks[0], ticks[-1]
+    return lambda pixel: v0 + (pixel - p0) * (v1 - v0) / (p1 - p0)
+
+
+def check_rating_plot(r, path, view):
+    root = ET.parse(path).getroot()  # raises if the file is not well-formed XML
+    circles = group(root, "gaugings")[0].findall(f"{SVG}circle")
+    r.check("rating plot: a circle per gauging", len(circles) == 16, str(len(circles)))
+    differences = group(root, "differences")[0].findall(f"{SVG}circle")
+    r.check("rating plot: a difference per gauging with a computed discharge",
+            len(differences) == 14, str(len(differences)))
+    stage_of = tick_map(group(root, "y-axis")[0], "end", "y", 4)
+    labelled = [g for g in group(root, "x-axis") if g.findall(f"{SVG}text")]
+    q_of = tick_map(labelled[0], "middle", "x", 0)
+    worst = 0.0
+    line = group(root, "rating")[0].find(f"{SVG}polyline")
+    for pair in line.get("points").split():
+        x, y = map(float, pair.split(","))
+        stage, q = stage_of(y), q_of(x)
+        worst = max(worst, abs(q - flow(stage, N_EDITED)))
+    # Coordinates are written to 0.01 px: a few thousandths of the axis in discharge.
+    r.check("rating plot: the curve is Manning's equation with the n in force", worst < 0.02,
+            f"worst {worst:.4f} m^3/s")
+    stages = sorted(stage_of(float(c.get("cy"))) for c in circles)
+    want = sorted(v[0] for v in view.values())
+    r.check("rating plot: circles at the gaugings' stages",
+            all(abs(a - b) < 1e-3 for a, b in zip(stages, want)), f"{stages} vs {want}")
 
 
 def run(*command):
@@ -244,6 +286,16 @@ def main():
         t = times[3]
         r.close("computed follows the edited n", edited.get(ds.iso(t), {}).get("computed", 0),
                 flow(view[t][0], N_EDITED), 1e-5)
+
+        # The rating plot: the curve of the version in force (now N_EDITED) against Manning's
+        # equation, read back through the axes' tick labels; one circle per gauging, one
+        # difference per gauging with a computed discharge.
+        svg_path = os.path.join(tmp, "rating.svg")
+        done = run(stagewell, "plot", "--config", config, "--site", "canal", "--from",
+                   "2026-05-01", "--to", "2026-05-02", "--kind", "rating", "--out", svg_path)
+        r.check("plot --kind rating", done.returncode == 0, done.stdout + done.stderr)
+        if done.returncode == 0:
+            check_rating_plot(r, svg_path, view)
 
         # Bad lines: refused with their line numbers, the good ones stored; a unit option.
         bad = os.path.join(tmp, "bad.csv")

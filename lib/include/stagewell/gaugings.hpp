@@ -16,6 +16,7 @@
 #include "stagewell/flags.hpp"
 #include "stagewell/gauging_csv.hpp"
 #include "stagewell/gaugings_table.hpp"
+#include "stagewell/plot.hpp"
 #include "stagewell/result.hpp"
 #include "stagewell/site_history.hpp"
 #include "stagewell/store.hpp"
@@ -80,5 +81,12 @@ struct GaugingImport {
 Result<std::vector<GaugingImport>> import_gaugings(Store& store, const SiteHistory& history,
                                                    SiteKey site, std::span<const GaugingLine> lines,
                                                    double default_uncertainty, std::int64_t now_ms);
+
+// The rating of the version in force at `time_ms` as the rating plot draws it: `count` stages
+// (>= 2) evenly from zero flow (or the checks' min_stage, when higher) to the top of the section
+// (or max_stage, when lower), each with its discharge (the same computation as a reading's, the
+// stage correction in force at `time_ms` included). Without a band.
+std::vector<plot::RatingCurvePoint> rating_curve(const SiteHistory& history, units::System system,
+                                                 std::int64_t time_ms, std::size_t count);
 
 }  // namespace stagewell

@@ -55,3 +55,33 @@ struct DurationSpec {
 std::string duration_svg(const stats::FlowDuration& duration, const DurationSpec& spec);
 
 }  // namespace stagewell::plot
+
+namespace stagewell::plot {
+
+// Rating plot: stage (vertical) against discharge (horizontal) of one configuration version, with
+// its uncertainty band as a shaded area when given, the gaugings as points, and under it a small
+// panel of the gaugings' differences from the computed discharge (percent) against their measured
+// discharge.
+struct RatingCurvePoint {
+  double stage = 0.0;               // site's stage units
+  double discharge = 0.0;           // stored unit (m^3/s or ft^3/s)
+  std::optional<double> low, high;  // the band's ends, stored unit; both or neither
+};
+struct RatingGauging {
+  double stage = 0.0;                        // site's stage units
+  double measured = 0.0;                     // stored unit
+  std::optional<double> difference_percent;  // 100 (measured - computed) / computed
+};
+struct RatingSpec {
+  std::string title;
+  std::string subtitle;      // which version, which gaugings
+  std::string band_note;     // what the shaded area is; empty when there is none
+  stats::Conversion units;   // discharge shown = stored * units.flow_factor
+  std::string stage_symbol;  // "m", "cm", "ft"...
+};
+
+// REQUIRES: curve in increasing stage, at least 2 points.
+std::string rating_svg(const std::vector<RatingCurvePoint>& curve,
+                       const std::vector<RatingGauging>& gaugings, const RatingSpec& spec);
+
+}  // namespace stagewell::plot

@@ -176,4 +176,27 @@ Result<std::vector<GaugingImport>> import_gaugings(Store& store, const SiteHisto
   return out;
 }
 
+std::vector<plot::RatingCurvePoint> rating_curve(const SiteHistory& history, units::System system,
+                                                 std::int64_t time_ms, std::size_t count) {
+  const HistorySegment& segment = history.segment_at(time_ms);
+  const SiteConfig& keys = *segment.keys;
+  const double correction = segment.correction ? segment.correction->at(time_ms) : 0.0;
+  const auto channel = make_channel(keys, system);
+  // Raw stages: the stage that, corrected, reads the depth.
+  double low = keys.stage_for_depth(0.0, system) - correction;
+  double high = keys.stage_for_depth(channel->section().top_depth(), system) - correction;
+  if (keys.checks.min_stage) low = std::max(low, *keys.checks.min_stage);
+  if (keys.checks.max_stage) high = std::min(high, *keys.checks.max_stage);
+  if (!(high > low)) high = low + 1.0;
+  count = std::max<std::size_t>(count, 2);
+  std::vector<plot::RatingCurvePoint> out;
+  for (std::size_t i = 0; i < count; ++i) {
+    const double stage =
+        low + (high - low) * static_cast<double>(i) / static_cast<double>(count - 1);
+    const ComputedReading computed = history.compute(time_ms, stage, Flags{});
+    out.push_back({.stage = stage, .discharge = computed.discharge.value_or(0.0)});
+  }
+  return out;
+}
+
 }  // namespace stagewell
