@@ -79,6 +79,22 @@ int run_calibrate(const CalibrateOptions& options) {
   std::vector<double> scaled;
   for (double n : today.roughness) scaled.push_back(n * fit->factor);
   const std::string change = roughness_change_yaml(used.front().time_ms, scaled);
+  std::vector<std::string> warnings;
+  for (double n : scaled) {
+    if (n < kMinRoughness || n > kMaxRoughness) {
+      warnings.push_back(fmt::format(
+          "a fitted n of {} is outside what a configuration accepts ({} to {}): the gaugings or "
+          "the section, slope or stage settings need a look before any roughness is changed",
+          format_number(n), kMinRoughness, kMaxRoughness));
+      break;
+    }
+  }
+  if (fit->count < 2 * kMinCalibrationPoints) {
+    warnings.push_back(
+        fmt::format("only {} gaugings: the interval is wide, and they may not span "
+                    "the stages that matter",
+                    fit->count));
+  }
   const auto flow = units::default_flow(config->units);
 
   if (options.json) {
@@ -98,6 +114,7 @@ int run_calibrate(const CalibrateOptions& options) {
         {"used", nlohmann::json::array()},
         {"left_out", nlohmann::json::array()},
         {"change", change},
+        {"warnings", warnings},
     };
     for (const auto& point : used) {
       out["used"].push_back({{"time", format_timestamp_utc(point.time_ms)},
@@ -133,6 +150,7 @@ int run_calibrate(const CalibrateOptions& options) {
     std::cout << fmt::format("  left out {}: {}\n", format_timestamp_utc(skipped.time_ms),
                              skipped.reason);
   }
+  for (const auto& warning : warnings) std::cout << "  warning: " << warning << '\n';
   std::cout << "\nTo use it, add under the site's `changes:` (the configuration is not edited):\n"
             << change << '\n';
   print_caution(std::cout);

@@ -262,6 +262,7 @@ def main():
         r.check("seeded set: the interval holds the true n",
                 seeded.get("roughness_low", 1) <= N_TRUE <= seeded.get("roughness_high", 0),
                 f"{seeded.get('roughness_low')} .. {seeded.get('roughness_high')}")
+        r.check("seeded set: no warnings", seeded.get("warnings") == [], str(seeded.get("warnings")))
         r.close("seeded set: the fit recovers the true n within the scatter",
                 seeded.get("roughness_fit", 0), N_TRUE, 0.05)
 

@@ -28,6 +28,10 @@
 
 namespace stagewell {
 
+// The Manning's n a configuration accepts (see the top of this file).
+inline constexpr double kMinRoughness = 0.008;
+inline constexpr double kMaxRoughness = 0.25;
+
 struct StageSpec {
   units::Length units = units::Length::m;
   double offset = 0.0;     // stage units: added to every reading (sensor offset)

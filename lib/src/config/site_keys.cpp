@@ -15,7 +15,7 @@ namespace {
 // for channels (from memory; a few of its entries for very smooth surfaces and for dense brush on
 // floodplains lie beyond). The band 0.008 to 0.25 is wider so that no real channel is refused,
 // while an n typed in the wrong form (1.4 for 0.014, or 0) is caught. Common practice.
-const Bounds kRoughness = Bounds::at_least(0.008).at_most(0.25);
+const Bounds kRoughness = Bounds::at_least(kMinRoughness).at_most(kMaxRoughness);
 
 // Energy slope, length per length. Manning's equation and its tables of n are for gentle slopes
 // (sin θ ≈ tan θ); past 0.5 (a 1 in 2 grade, 27°) the value is surely a slip — a percentage
