@@ -61,6 +61,8 @@ void print_json(const Report& report, const std::vector<daily::DayFigures>& days
         {"readings", day.readings},
         {"flagged", day.flagged},
         {"flags", flags},
+        {"volume_low", optional_number(u.volume_of(day.volume_low))},
+        {"volume_high", optional_number(u.volume_of(day.volume_high))},
     });
   }
   std::cout << out.dump(2) << '\n';
@@ -76,21 +78,22 @@ void print_csv(const Report& report, const std::vector<daily::DayFigures>& days)
   const auto flow = units::ucum(u.flow);
   std::cout << fmt::format(
       "day,volume ({0}),mean_discharge ({1}),min_discharge ({1}),min_time,max_discharge ({1}),"
-      "max_time,coverage,readings,flagged,flags\n",
+      "max_time,coverage,readings,flagged,flags,volume_low ({0}),volume_high ({0})\n",
       units::ucum(u.volume), flow);
   for (const auto& day : days) {
     std::string flags;
     for (const auto& count : day.flag_counts) {
       flags += fmt::format("{}{}={}", flags.empty() ? "" : " ", name(count.flag), count.readings);
     }
-    std::cout << fmt::format("{},{},{},{},{},{},{},{},{},{},{}\n", daily::format_day(day.day),
-                             csv_number(u.volume_of(day.volume)),
-                             csv_number(u.flow_of(day.mean_discharge)),
-                             csv_number(u.flow_of(day.min_discharge)),
-                             day.min_time_ms ? format_timestamp_utc(*day.min_time_ms) : "",
-                             csv_number(u.flow_of(day.max_discharge)),
-                             day.max_time_ms ? format_timestamp_utc(*day.max_time_ms) : "",
-                             day.coverage, day.readings, day.flagged, flags);
+    std::cout << fmt::format(
+        "{},{},{},{},{},{},{},{},{},{},{},{},{}\n", daily::format_day(day.day),
+        csv_number(u.volume_of(day.volume)), csv_number(u.flow_of(day.mean_discharge)),
+        csv_number(u.flow_of(day.min_discharge)),
+        day.min_time_ms ? format_timestamp_utc(*day.min_time_ms) : "",
+        csv_number(u.flow_of(day.max_discharge)),
+        day.max_time_ms ? format_timestamp_utc(*day.max_time_ms) : "", day.coverage, day.readings,
+        day.flagged, flags, csv_number(u.volume_of(day.volume_low)),
+        csv_number(u.volume_of(day.volume_high)));
   }
 }
 

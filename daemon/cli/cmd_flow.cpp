@@ -2,13 +2,17 @@
 // (discharge -> normal and critical depth). Both use the direct formula, not a rating table.
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <iostream>
 #include <memory>
 #include <nlohmann/json.hpp>
+#include <optional>
 
 #include "commands.hpp"
 #include "output_format.hpp"
+#include "stagewell/timestamp.hpp"
+#include "stagewell/uncertainty.hpp"
 
 namespace stagewell::cli {
 namespace {
@@ -17,7 +21,8 @@ struct FlowOptions {
   std::string config_path;
   std::string site_id;
   double stage = 0.0;
-  std::string flow_units;  // empty: the configuration's discharge unit
+  std::optional<double> rate;  // stage units per hour, for the Jones estimate
+  std::string flow_units;      // empty: the configuration's discharge unit
   bool json = false;
 };
 
@@ -47,10 +52,29 @@ int run_flow(const FlowOptions& options) {
   const auto system = config->units;
   const auto flow_unit = flow_unit_or_report(options.flow_units, system);
   if (!flow_unit) return kUsage;
-  const auto channel = make_channel(*site, system);
-  const double depth = site->depth_for_stage(options.stage, system);
+  // The keys in force now: a change (say, a calibrated roughness) from today on counts.
+  const SiteConfig& keys = site->version_at(system_now_ms());
+  const auto channel = make_channel(keys, system);
+  const double depth = keys.depth_for_stage(options.stage, system);
   const HydraulicState state = channel->at_depth(depth);
   const double discharge = flow_in(state.discharge, system, *flow_unit);
+  // The band and the Jones estimate (uncertainty.hpp), where the discharge is positive.
+  const double stage_to_length = units::to_m(keys.stage.units) / units::length_to_m(system);
+  std::optional<double> band;
+  std::optional<double> jones;
+  if (depth > 0.0) {
+    const StageResponse response = stage_response(*channel, depth);
+    band = relative_band(response, keys.uncertainty, stage_to_length);
+    if (options.rate) {
+      const double rate = *options.rate * stage_to_length / 3600.0;  // L/s
+      if (const auto q = jones_discharge(response, keys.slope, rate)) {
+        jones = flow_in(*q, system, *flow_unit);
+      }
+    }
+  }
+  const double low = band ? std::max(0.0, discharge * (1.0 - *band)) : discharge;
+  const double high = band ? discharge * (1.0 + *band) : discharge;
+  const auto rate_unit = fmt::format("{}/h", units::ucum(keys.stage.units));
 
   if (options.json) {
     nlohmann::json out = {
@@ -64,26 +88,34 @@ int run_flow(const FlowOptions& options) {
         {"hydraulic_depth", json_number(state.hydraulic_depth)},
         {"velocity", json_number(state.velocity)},
         {"discharge", json_number(discharge)},
+        {"discharge_low", json_number(low)},
+        {"discharge_high", json_number(high)},
+        {"band_percent", band ? json_number(100.0 * *band) : nlohmann::json(nullptr)},
         {"froude", json_number(state.froude)},
         {"flags", flags_json(state.flags)},
         {"units",
-         {{"stage", units::ucum(site->stage.units)},
+         {{"stage", units::ucum(keys.stage.units)},
           {"length", units::ucum_length(system)},
           {"area", units::ucum_area(system)},
           {"velocity", units::ucum_velocity(system)},
           {"discharge", units::ucum(*flow_unit)}}},
     };
+    if (options.rate) {
+      out["rate"] = *options.rate;
+      out["discharge_jones"] = jones ? json_number(*jones) : nlohmann::json(nullptr);
+      out["units"]["rate"] = rate_unit;
+    }
     std::cout << out.dump(2) << '\n';
     return kOk;
   }
 
   const auto length = units::length_symbol(system);
   std::cout << fmt::format("{} ({}), {}\n", site->id, site->name,
-                           describe_section(site->section, system));
+                           describe_section(keys.section, system));
   const auto row = [](std::string_view label, double value, std::string_view unit) {
     std::cout << fmt::format("  {:<18}{:>12} {}\n", label, format_number(value), unit);
   };
-  row("stage", options.stage, units::symbol(site->stage.units));
+  row("stage", options.stage, units::symbol(keys.stage.units));
   row("depth", depth, length);
   row("flow area", state.area, units::area_symbol(system));
   row("wetted perimeter", state.wetted_perimeter, length);
@@ -96,6 +128,25 @@ int run_flow(const FlowOptions& options) {
     const auto other_flow =
         system == units::System::metric ? units::Flow::litres_per_s : units::Flow::us_gal_per_min;
     row("", flow_in(state.discharge, system, other_flow), units::symbol(other_flow));
+  }
+  if (band) {
+    std::cout << fmt::format("  {:<18}{:>12} to {} {}  (±{} %, about 95 %)\n", "discharge band",
+                             format_number(low), format_number(high), units::symbol(*flow_unit),
+                             format_number(100.0 * *band));
+  }
+  if (options.rate) {
+    const auto stage_units = units::symbol(keys.stage.units);
+    if (jones) {
+      std::cout << fmt::format("  {:<18}{:>12} {}  (stage changing {} {}/h; {:+.1f} %)\n",
+                               "unsteady (Jones)", format_number(*jones), units::symbol(*flow_unit),
+                               format_number(*options.rate), stage_units,
+                               100.0 * (*jones / discharge - 1.0));
+    } else {
+      std::cout << fmt::format(
+          "  {:<18}{:>12}  (no estimate at {} {}/h: no free surface, no "
+          "flow, or the stage falls too fast for the formula)\n",
+          "unsteady (Jones)", "n/a", format_number(*options.rate), stage_units);
+    }
   }
   row("Froude number", state.froude,
       std::isnan(state.froude) ? "(flowing full: no free surface)"
@@ -183,6 +234,11 @@ void add_flow_command(CLI::App& program, Action& chosen) {
   command->add_option("--flow-units", options->flow_units,
                       "Discharge in: " + units::flow_choices() +
                           " (any case; default: the configuration's, m3/s or ft3/s)");
+  command
+      ->add_option("--rate", options->rate,
+                   "Rate of change of stage, site's stage units per hour (rising > 0): also "
+                   "print the unsteady-flow discharge by the Jones formula")
+      ->check(decimal_number());
   command->add_flag("--json", options->json,
                     "One JSON object, numbers in the configuration's units (discharge in "
                     "--flow-units), units as UCUM codes");

@@ -254,9 +254,11 @@ def main():
                   f"{'met' if max(rss) <= 64 else 'MISSED'}")
         else:
             print("ingest peak RSS: not measured (install Debian's `time` package)")
+        # 45: the plain table's five values in about 35 bytes, and each reading's uncertainty band
+        # and Jones estimate (whole basis points, 1 to 3 bytes each, schema 9); 40 before those.
         print(f"database bytes per stored reading: {statistics.median(per_reading):.1f} "
-              f"(plain table: {database_bytes(plain_db) / rows:.1f}); target <= 40: "
-              f"{'met' if statistics.median(per_reading) <= 40 else 'MISSED'}")
+              f"(plain table: {database_bytes(plain_db) / rows:.1f}); target <= 45: "
+              f"{'met' if statistics.median(per_reading) <= 45 else 'MISSED'}")
 
         if args.recompute:
             text = open(yaml).read()

@@ -235,3 +235,89 @@ sites:                   # 3
 )",
                    8, "sites[0].slope: written twice (first on line 7); keep one");
 }
+
+TEST_CASE("uncertainty: percentages need their %, within 0 to 100 %; the stage's at least 0") {
+  // A bare 0.1 could mean 0.1 % or 10 %: refused. The bounds are those of config/reference.yaml.
+  const struct {
+    const char* value;
+    const char* message;
+  } cases[] = {
+      {"0.1", "must be a percentage written with its %, e.g. 10%"},
+      {"ten%", "must be a percentage written with its %, e.g. 10%"},
+      {"150%", "must be from 0 to 100 %"},
+      {"-5%", "must be from 0 to 100 %"},
+  };
+  for (const auto& c : cases) {
+    CAPTURE(c.value);
+    const std::string text = std::string(R"(
+units: metric            # 1
+database: flows.db       # 2
+sites:                   # 3
+  - id: pond-outlet      # 4
+    section: {shape: rectangular, width: 2.0, height: 1.0}  # 5
+    roughness: 0.014     # 6
+    slope: 0.001         # 7
+    uncertainty:         # 8
+      roughness: )") + c.value +
+                             "\n";
+    expect_one_error(text, 9, c.message);
+  }
+  expect_one_error(R"(
+units: metric            # 1
+database: flows.db       # 2
+sites:                   # 3
+  - id: pond-outlet      # 4
+    section: {shape: rectangular, width: 2.0, height: 1.0}  # 5
+    roughness: 0.014     # 6
+    slope: 0.001         # 7
+    uncertainty: {stage: -0.01}  # 8
+)",
+                   8, "must be at least 0");
+  expect_one_error(R"(
+units: metric            # 1
+database: flows.db       # 2
+sites:                   # 3
+  - id: pond-outlet      # 4
+    section: {shape: rectangular, width: 2.0, height: 1.0}  # 5
+    roughness: 0.014     # 6
+    slope: 0.001         # 7
+    checks: {unsteady: 5}  # 8
+)",
+                   8, "must be a percentage written with its %");
+}
+
+TEST_CASE("uncertainty and checks.unsteady: defaults, values, and a change that writes them") {
+  const auto config = stagewell::parse_config(stagewell::test::yaml_text(R"(
+units: metric
+database: flows.db
+sites:
+  - id: plain
+    section: {shape: rectangular, width: 2.0, height: 1.0}
+    roughness: 0.014
+    slope: 0.001
+  - id: stated
+    section: {shape: rectangular, width: 2.0, height: 1.0}
+    roughness: 0.014
+    slope: 0.001
+    stage: {units: cm}
+    checks: {unsteady: 2.5 %}
+    uncertainty: {roughness: 7.5%, slope: 0%, stage: 0.3}
+    changes:
+      - from: 2026-06-01T00:00:00Z
+        uncertainty: {roughness: 4%}
+)"),
+                                              "test.yaml", "/srv/flows");
+  REQUIRE(config);
+  const auto& plain = config->sites[0];
+  CHECK(plain.uncertainty == stagewell::UncertaintySpec{0.10, 0.10, 0.005});
+  CHECK(plain.checks.unsteady == doctest::Approx(0.05));
+  const auto& stated = config->sites[1];
+  CHECK(stated.checks.unsteady == doctest::Approx(0.025));
+  CHECK(stated.uncertainty.roughness == doctest::Approx(0.075));
+  CHECK(stated.uncertainty.slope == 0.0);
+  CHECK(stated.uncertainty.stage == doctest::Approx(0.3));
+  REQUIRE(stated.changes.size() == 1);
+  // A change overrides only what it writes.
+  CHECK(stated.changes[0].site.uncertainty.roughness == doctest::Approx(0.04));
+  CHECK(stated.changes[0].site.uncertainty.stage == doctest::Approx(0.3));
+}

@@ -169,6 +169,21 @@ def main():
                         shown.get("state"))
                 R.check(f"{site}: alarms in words", shown.get("alarms", ("",))[0] != "")
                 R.check(f"{site}: a 24-hour hydrograph drawn", parser.paths.get(site) == 1)
+                # The band: its half-width in percent to two significant figures, as the database
+                # has it (discharge_high / discharge - 1).
+                q, high, jones = ds.query(
+                    db, "SELECT discharge, discharge_high, discharge_jones FROM discharge "
+                        "WHERE site = ? ORDER BY time_ms DESC LIMIT 1", (site,))[0]
+                if q:
+                    text = shown.get("band", ("", None))[0]
+                    match = re.search(r"±\s*([0-9.,]+)\s*%", text)
+                    want = 100.0 * (high / q - 1.0)
+                    R.check(f"{site}: band shown (± %)", match is not None and
+                            abs(float(match.group(1).replace(",", "")) - want) <= 0.05 * want,
+                            (text, want))
+                if jones is not None:
+                    R.check(f"{site}: Jones estimate shown", "Jones" in
+                            shown.get("jones", ("",))[0], shown.get("jones"))
             R.check("footer caution", "Manning's equation" in parser.footer and
                     "field measurements" in parser.footer and
                     "licensed engineer" in parser.footer, parser.footer)

@@ -29,11 +29,12 @@ sites:
     section: {shape: rectangular, width: 2.0, height: 1.5}
     roughness: 0.014
     slope: 0.001
-    checks: {min_stage: 0.0, max_stage: 2.0, max_gap: 15m}
+    checks: {min_stage: 0.0, max_stage: 2.0, max_gap: 15m, unsteady: 0%}
   - id: b
     section: {shape: rectangular, width: 1.0, height: 1.0}
     roughness: 0.015
     slope: 0.002
+    checks: {unsteady: 0%}  # the series jump: the Jones rule is band_and_jones_test's
 """
 
 

@@ -135,17 +135,18 @@ TEST_CASE("the aggregate gives SQL typed elsewhere an error, never memory") {
   Readings db;
   // An analyst's connection does not have it.
   auto analyst = test::raw_connection(db.dir.db());
-  CHECK_FALSE(analyst
-                  ->query_int64("SELECT stagewell_day_readings(time_ms, discharge, flags, 1) "
-                                "FROM readings")
-                  .has_value());
+  CHECK_FALSE(
+      analyst
+          ->query_int64("SELECT stagewell_day_readings(time_ms, discharge, flags, band_bp, 1) "
+                        "FROM readings")
+          .has_value());
   // Even where it is registered, a number or text in place of the program's bound pointer is
   // NULL to it (SQLite's pointer-passing interface): the query fails, naming why.
   REQUIRE(store_detail::add_day_readings_function(*analyst).has_value());
   for (const char* sql :
-       {"SELECT stagewell_day_readings(time_ms, discharge, flags, 140737488355328) "
+       {"SELECT stagewell_day_readings(time_ms, discharge, flags, band_bp, 140737488355328) "
         "FROM readings",
-        "SELECT stagewell_day_readings(time_ms, discharge, flags, 'x') "
+        "SELECT stagewell_day_readings(time_ms, discharge, flags, band_bp, 'x') "
         "FROM readings"}) {
     CAPTURE(sql);
     auto result = analyst->query_int64(sql);
@@ -155,7 +156,7 @@ TEST_CASE("the aggregate gives SQL typed elsewhere an error, never memory") {
   // Nor can a view in the file use it (SQLITE_DIRECTONLY), whoever wrote the view.
   REQUIRE(analyst
               ->exec("CREATE VIEW sneaky AS SELECT stagewell_day_readings(time_ms, "
-                     "discharge, flags, NULL) AS x FROM readings")
+                     "discharge, flags, band_bp, NULL) AS x FROM readings")
               .has_value());
   auto through_view = analyst->query_int64("SELECT x FROM sneaky");
   REQUIRE_FALSE(through_view.has_value());

@@ -30,20 +30,30 @@ TEST_CASE("the views have exactly the contracted columns") {
   TempDir dir;
   { test::open_store(dir.db()); }
   auto raw = raw_connection(dir.db());
-  // time_ms at the end of each view with a time, rejects' kind: schema 8.
+  // time_ms at the end of each view with a time, rejects' kind: schema 8; the band's ends and
+  // the Jones estimate after it, the daily band volumes and the gaugings: schema 9.
   CHECK(column_names(*raw, "discharge") ==
         std::vector<std::string>{"site", "time", "unix_time", "stage", "depth", "discharge",
-                                 "flags", "version", "time_ms"});
-  CHECK(column_names(*raw, "rejects") ==
-        std::vector<std::string>{"source", "position", "raw", "reason", "received", "kind",
-                                 "time_ms"});
+                                 "flags", "version", "time_ms", "discharge_low", "discharge_high",
+                                 "discharge_jones"});
+  CHECK(column_names(*raw, "daily") ==
+        std::vector<std::string>{"site", "day", "volume", "mean_discharge", "min_discharge",
+                                 "min_time", "max_discharge", "max_time", "coverage", "readings",
+                                 "flagged", "volume_low", "volume_high"});
+  CHECK(column_names(*raw, "gaugings") ==
+        std::vector<std::string>{"site", "time", "stage", "measured", "computed",
+                                 "difference_percent", "implied_roughness", "method", "note",
+                                 "version", "time_ms"});
+  CHECK(column_names(*raw, "rejects") == std::vector<std::string>{"source", "position", "raw",
+                                                                  "reason", "received", "kind",
+                                                                  "time_ms"});
   CHECK(column_names(*raw, "changes") ==
         std::vector<std::string>{"at", "site", "period_from", "period_to", "config_before",
                                  "config_after", "readings_changed", "max_discharge_change",
                                  "max_daily_volume_change", "finished", "time_ms"});
-  CHECK(column_names(*raw, "alarms") ==
-        std::vector<std::string>{"site", "kind", "raised", "cleared", "value", "threshold",
-                                 "time_ms"});
+  CHECK(column_names(*raw, "alarms") == std::vector<std::string>{"site", "kind", "raised",
+                                                                 "cleared", "value", "threshold",
+                                                                 "time_ms"});
   CHECK(column_names(*raw, "site_details") ==
         std::vector<std::string>{"site", "name", "time_zone", "stage_unit", "length_unit",
                                  "discharge_unit", "volume_unit", "latitude", "longitude",
@@ -148,8 +158,9 @@ TEST_CASE("a time range on time_ms searches the readings' primary key") {
   auto raw = raw_connection(dir.db());
   // time_ms is the stored integer.
   CHECK(query_int(*raw, "SELECT min(time_ms) FROM discharge") == 1'700'000'000'000);
-  CHECK(query_int(*raw, "SELECT count(*) FROM discharge WHERE site = 'raceway-a' AND time_ms "
-                        "BETWEEN 1700000060000 AND 1700000180000") == 3);
+  CHECK(query_int(*raw,
+                  "SELECT count(*) FROM discharge WHERE site = 'raceway-a' AND time_ms "
+                  "BETWEEN 1700000060000 AND 1700000180000") == 3);
   // SQLite's EXPLAIN QUERY PLAN (sqlite.org, "EXPLAIN QUERY PLAN"): a SEARCH of readings whose
   // key constraint names time_ms, not a search on site_key alone.
   auto plan = raw->prepare(
@@ -167,16 +178,19 @@ TEST_CASE("rejects: kind is the reason's category, reason the whole text") {
   TempDir dir;
   Store store = test::open_store(dir.db());
   auto batch = store.begin();
-  REQUIRE(batch->add_reject({"a.csv", "line 3", "g1,x,1", "bad_time: 'x' is not a timestamp",
-                             1'700'000'000'000})
+  REQUIRE(batch
+              ->add_reject({"a.csv", "line 3", "g1,x,1", "bad_time: 'x' is not a timestamp",
+                            1'700'000'000'000})
               .has_value());
-  REQUIRE(batch->add_reject({"a.csv", "line 4", "g1,2026,y", "bad_stage: 'y' is not a number",
-                             1'700'000'000'500})
+  REQUIRE(batch
+              ->add_reject({"a.csv", "line 4", "g1,2026,y", "bad_stage: 'y' is not a number",
+                            1'700'000'000'500})
               .has_value());
   REQUIRE(batch->commit().has_value());
   auto raw = raw_connection(dir.db());
-  CHECK(query_text(*raw, "SELECT group_concat(kind, ',') FROM (SELECT kind FROM rejects ORDER BY "
-                         "time_ms)") == "bad_time,bad_stage");
+  CHECK(query_text(*raw,
+                   "SELECT group_concat(kind, ',') FROM (SELECT kind FROM rejects ORDER BY "
+                   "time_ms)") == "bad_time,bad_stage");
   CHECK(query_text(*raw, "SELECT reason FROM rejects WHERE kind = 'bad_stage'") ==
         "bad_stage: 'y' is not a number");
   CHECK(query_int(*raw, "SELECT time_ms FROM rejects WHERE kind = 'bad_stage'") ==

@@ -69,14 +69,18 @@ struct EarlierFlag {
   Flags flags;
 };
 
-struct CheckResult {
-  Flags flags;                       // for the reading just checked
-  std::vector<EarlierFlag> earlier;  // to add to earlier readings, oldest first; usually empty
-};
-
 struct PastReading {
   std::int64_t time_ms = 0;
   double stage = 0.0;  // stage units, as read
+};
+
+struct CheckResult {
+  Flags flags;                       // for the reading just checked
+  std::vector<EarlierFlag> earlier;  // to add to earlier readings, oldest first; usually empty
+  // The in-range reading before this one in time order, when this one is in range, not future,
+  // at a later time and at most max_gap after it (any time apart when max_gap is off): the
+  // neighbour the rate of change of stage is taken from (the Jones estimate, uncertainty.hpp).
+  std::optional<PastReading> previous;
 };
 
 class SiteChecker {
@@ -108,6 +112,7 @@ class SiteChecker {
 
   bool in_range(double stage) const;
   bool too_fast(const Entry& a, std::int64_t time_ms, double stage) const;
+  std::optional<PastReading> neighbour(const Entry& before, std::int64_t time_ms) const;
   void check_in_order(std::int64_t time_ms, double stage, bool in_range, CheckResult& result);
   void check_late(std::int64_t time_ms, double stage, bool in_range, CheckResult& result);
   void track_spike(std::int64_t time_ms, double stage, CheckResult& result);

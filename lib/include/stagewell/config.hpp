@@ -24,6 +24,7 @@
 #include "stagewell/channel.hpp"
 #include "stagewell/flags.hpp"
 #include "stagewell/section.hpp"
+#include "stagewell/uncertainty.hpp"
 #include "stagewell/units.hpp"
 
 namespace stagewell {
@@ -49,6 +50,9 @@ struct ChecksSpec {
   double flatline_s = 6 * 3600.0;   // the same stage for longer -> flatline; 0 = off
   double max_gap_s = 3600.0;        // longer since the previous reading -> gap
   double max_clock_skew_s = 300.0;  // further ahead of the clock -> future
+  // |Q_J / Q - 1| above this (a fraction; the key is a percentage) -> unsteady, with Q_J the Jones
+  // estimate (uncertainty.hpp); 0 = off. Judged with the discharge, not by SiteChecker.
+  double unsteady = 0.05;
 
   friend bool operator==(const ChecksSpec&, const ChecksSpec&) = default;
 };
@@ -108,6 +112,7 @@ struct SiteConfig {
   double slope = 0.0;             // energy slope, length per length
   StageSpec stage;
   ChecksSpec checks;
+  UncertaintySpec uncertainty;  // standard uncertainties of n, slope and stage (uncertainty.hpp)
   AlarmsSpec alarms;
   int line = 0;  // where the site starts in the file, for messages
   // History (docs/configuration.md, "History and corrections"): the keys above hold before the

@@ -27,6 +27,7 @@ struct DayReading {
   std::int64_t time_ms = 0;
   std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
   Flags flags;
+  std::optional<double> band = std::nullopt;  // relative expanded uncertainty; empty: none known
 };
 
 struct FlagCount {
@@ -39,7 +40,9 @@ struct DayFigures {
   Day day;
   std::int64_t start_ms = 0;
   std::int64_t end_ms = 0;
-  std::optional<double> volume;          // m^3 or ft^3
+  std::optional<double> volume;      // m^3 or ft^3
+  std::optional<double> volume_low;  // from the low and high ends of each reading's band
+  std::optional<double> volume_high;
   std::optional<double> mean_discharge;  // m^3/s or ft^3/s
   std::optional<double> min_discharge;
   std::optional<std::int64_t> min_time_ms;

@@ -27,6 +27,7 @@ struct PlotReading {
   double stage = 0.0;               // stage units, as read
   std::optional<double> discharge;  // stored unit (m^3/s or ft^3/s); empty when out_of_range
   Flags flags;
+  std::optional<double> band = std::nullopt;  // relative expanded uncertainty (uncertainty.hpp)
 };
 }  // namespace plot
 

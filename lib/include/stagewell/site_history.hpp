@@ -18,6 +18,7 @@
 #include <span>
 #include <vector>
 
+#include "stagewell/checks.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/flags.hpp"
 #include "stagewell/result.hpp"
@@ -56,8 +57,11 @@ class SiteHistory {
   // True when the stage's depth, or the discharge it would get, is not a finite number (such a
   // reading cannot be stored).
   bool unusable(std::int64_t time_ms, double stage) const;
-  // Depth, discharge and flags of a reading whose checks gave `checked`.
-  ComputedReading compute(std::int64_t time_ms, double stage, Flags checked) const;
+  // Depth, discharge, band and flags of a reading whose checks gave `checked`. With `previous`
+  // (CheckResult::previous) also the Jones estimate, and the flag unsteady where it differs from
+  // the discharge by more than the checks' `unsteady` share.
+  ComputedReading compute(std::int64_t time_ms, double stage, Flags checked,
+                          const std::optional<PastReading>& previous = std::nullopt) const;
 
  private:
   struct Hydraulics;

@@ -69,6 +69,10 @@ struct StoredReading {
   std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
   Flags flags;
   ConfigVersionId config;  // the version that computed depth, discharge and flags
+  // The discharge's relative expanded uncertainty (a fraction) and its Jones estimate (m^3/s or
+  // ft^3/s), uncertainty.hpp; empty where none.
+  std::optional<double> band = std::nullopt;
+  std::optional<double> discharge_jones = std::nullopt;
 };
 
 // What a reading's stored values are, computed from its raw stage (site_history.hpp); what a
@@ -78,6 +82,10 @@ struct ComputedReading {
   std::optional<double> discharge;  // m^3/s or ft^3/s; empty when out_of_range
   Flags flags;                      // the checks' flags plus the hydraulic ones
   ConfigVersionId config;
+  // The relative expanded uncertainty (k = 2) of discharge and the Jones estimate (m^3/s or
+  // ft^3/s), uncertainty.hpp; empty where none.
+  std::optional<double> band = std::nullopt;
+  std::optional<double> discharge_jones = std::nullopt;
 };
 
 enum class InsertOutcome {

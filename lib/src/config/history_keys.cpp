@@ -118,13 +118,17 @@ void read_changes(const At& at, Context& cx, units::System system, SiteConfig& s
          [](const At& value, Context& c, SiteChange& out) {
            read_checks(value, c, out.site.checks, false);
          }},
+        {"uncertainty", optional(),
+         [](const At& value, Context& c, SiteChange& out) {
+           read_uncertainty(value, c, out.site.uncertainty, false);
+         }},
     };
     const std::size_t before = cx.error_count();
     read_map(entry, keys, cx, change);
     if (entry.node.IsMap() && entry.node.size() == 1 && read.from) {
       cx.error(entry,
                "a change needs at least one key besides `from`: section, roughness, "
-               "slope, stage or checks");
+               "slope, stage, checks or uncertainty");
     }
     check_change_roughness(entry, read, cx, change.site);
     if (has_time && !changes.empty() && change.from_ms <= changes.back().from_ms) {

@@ -32,6 +32,7 @@ std::vector<Key<StageSpec>> stage_keys(units::System system);
 const std::vector<Key<ChecksSpec>>& checks_keys();
 // Reads `checks:` into `checks`; without defaults, keys not written keep their values (a change).
 void read_checks(const At& at, Context& cx, ChecksSpec& checks, bool with_defaults);
+void read_uncertainty(const At& at, Context& cx, UncertaintySpec& out, bool with_defaults);
 
 // The same table with every defaulted key made optional: a change overrides only what it writes.
 template <typename T>

@@ -96,6 +96,8 @@ const std::vector<Key<ChecksSpec>>& checks_keys() {
       {"max_gap", defaults("1h"), into(duration(Bounds::above(0.0)), &ChecksSpec::max_gap_s)},
       {"max_clock_skew", defaults("5m"),
        into(duration(Bounds::at_least(0.0)), &ChecksSpec::max_clock_skew_s)},
+      {"unsteady", defaults("5%"),
+       into(percent(Bounds::at_least(0.0).at_most(100.0)), &ChecksSpec::unsteady)},
   };
   return keys;
 }
@@ -109,6 +111,28 @@ void read_checks(const At& at, Context& cx, ChecksSpec& checks, bool with_defaul
       cx.error(*min_stage, fmt::format("must be less than max_stage ({})", *checks.max_stage));
     }
   }
+}
+
+namespace {
+
+// Standard uncertainties (docs/uncertainty.md). The defaults are those of UncertaintySpec.
+// Manning's n is rarely known better than 5 % or worse than about 50 %, and a slope is a
+// measured quantity of the same order; beyond 100 % a first-order propagation means nothing.
+const std::vector<Key<UncertaintySpec>>& uncertainty_keys() {
+  static const std::vector<Key<UncertaintySpec>> keys{
+      {"roughness", defaults("10%"),
+       into(percent(Bounds::at_least(0.0).at_most(100.0)), &UncertaintySpec::roughness)},
+      {"slope", defaults("10%"),
+       into(percent(Bounds::at_least(0.0).at_most(100.0)), &UncertaintySpec::slope)},
+      {"stage", defaults("0.005"), into(number(Bounds::at_least(0.0)), &UncertaintySpec::stage)},
+  };
+  return keys;
+}
+
+}  // namespace
+
+void read_uncertainty(const At& at, Context& cx, UncertaintySpec& out, bool with_defaults) {
+  read_map(at, with_defaults ? uncertainty_keys() : without_defaults(uncertainty_keys()), cx, out);
 }
 
 namespace {
@@ -143,6 +167,10 @@ SiteConfig read_site(const At& at, Context& cx, units::System system) {
        }},
       {"checks", defaults("{}"),
        [](const At& value, Context& c, SiteConfig& s) { read_checks(value, c, s.checks, true); }},
+      {"uncertainty", defaults("{}"),
+       [](const At& value, Context& c, SiteConfig& s) {
+         read_uncertainty(value, c, s.uncertainty, true);
+       }},
       {"alarms", defaults("{}"),
        [](const At& value, Context& c, SiteConfig& s) { read_alarms(value, c, s.alarms); }},
       {"location", optional(),

@@ -201,6 +201,32 @@ Read<double> duration(Bounds seconds) {
   };
 }
 
+Read<double> percent(Bounds percents) {
+  return [percents](const At& at, Context& cx) -> std::optional<double> {
+    const auto value = scalar(at, cx, "a percentage");
+    if (!value) return std::nullopt;
+    // The % is required: a bare 0.1 could mean 0.1 % or 10 %.
+    std::string_view text = *value;
+    while (!text.empty() && text.back() == ' ') text.remove_suffix(1);
+    if (text.empty() || text.back() != '%') {
+      cx.error(at, "must be a percentage written with its %, e.g. 10%");
+      return std::nullopt;
+    }
+    text.remove_suffix(1);
+    while (!text.empty() && text.back() == ' ') text.remove_suffix(1);
+    const auto number = parse_number(text);
+    if (!number || !std::isfinite(*number)) {
+      cx.error(at, "must be a percentage written with its %, e.g. 10%");
+      return std::nullopt;
+    }
+    if (!percents.contains(*number)) {
+      cx.error(at, "must be " + percents.describe() + " %");
+      return std::nullopt;
+    }
+    return *number / 100.0;
+  };
+}
+
 Read<std::filesystem::path> file_path() {
   return [](const At& at, Context& cx) -> std::optional<std::filesystem::path> {
     const auto value = text()(at, cx);

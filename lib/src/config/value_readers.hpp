@@ -46,6 +46,7 @@ Read<std::string> one_of(std::vector<std::string_view> choices);
 Read<units::System> unit_system();        // metric | us
 Read<units::Length> length_unit();        // units::length_choices()
 Read<double> duration(Bounds seconds);    // "90s", "1h30m" -> seconds
+Read<double> percent(Bounds percents);    // "10%" -> 0.10 (the bounds are in percent)
 Read<std::filesystem::path> file_path();  // resolved against the base dir
 Read<std::string> time_zone();            // IANA name or fixed offset
 

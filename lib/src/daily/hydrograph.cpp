@@ -9,6 +9,7 @@
 
 #include "daily/plot_frame.hpp"
 #include "stagewell/plot.hpp"
+#include "stagewell/uncertainty.hpp"
 
 namespace stagewell::plot {
 namespace {
@@ -118,6 +119,26 @@ void draw_series(Svg& svg, const std::vector<std::vector<Point>>& runs, const ch
   svg.end_group();
 }
 
+// The band between two sets of runs (the low ends' and the high ends', broken at the same
+// readings), shaded: each pair of runs is one closed path, along the highs and back the lows.
+void draw_band(Svg& svg, const std::vector<std::vector<Point>>& lows,
+               const std::vector<std::vector<Point>>& highs) {
+  svg.begin_group("band");
+  for (std::size_t i = 0; i < lows.size() && i < highs.size(); ++i) {
+    if (highs[i].size() < 2) continue;
+    std::string data;
+    for (const Point& p : highs[i]) {
+      data += fmt::format("{}{},{} ", data.empty() ? "M" : "L", coord(p.x), coord(p.y));
+    }
+    for (auto p = lows[i].rbegin(); p != lows[i].rend(); ++p) {
+      data += fmt::format("L{},{} ", coord(p->x), coord(p->y));
+    }
+    data += "Z";
+    svg.path(data, "fill:#6baed6;fill-opacity:0.35;stroke:none");
+  }
+  svg.end_group();
+}
+
 struct MinMax {
   double low = INFINITY;
   double high = -INFINITY;
@@ -136,7 +157,7 @@ std::string hydrograph_svg(const std::vector<PlotReading>& readings, const Hydro
   MinMax flow;
   MinMax stage;
   for (const PlotReading& r : readings) {
-    if (r.discharge) flow.add(*r.discharge * flow_factor);
+    if (r.discharge) flow.add(*band_high(r.discharge, r.band) * flow_factor);
     stage.add(r.stage);
   }
   const LinearAxis flow_axis =
@@ -166,14 +187,22 @@ std::string hydrograph_svg(const std::vector<PlotReading>& readings, const Hydro
   svg.text({kLeft + kPlotWidth / 2, stage_panel.bottom() + 52},
            fmt::format("Local time ({})", spec.zone.name()), Anchor::middle, kFontSize);
 
+  const auto scaled = [flow_factor](std::optional<double> q) -> std::optional<double> {
+    if (!q) return std::nullopt;
+    return *q * flow_factor;
+  };
+  draw_band(
+      svg,
+      runs_of(
+          readings, [&](const PlotReading& r) { return scaled(band_low(r.discharge, r.band)); },
+          flow_panel, spec.max_gap_ms),
+      runs_of(
+          readings, [&](const PlotReading& r) { return scaled(band_high(r.discharge, r.band)); },
+          flow_panel, spec.max_gap_ms));
   draw_series(svg,
               runs_of(
-                  readings,
-                  [&](const PlotReading& r) -> std::optional<double> {
-                    if (!r.discharge) return std::nullopt;
-                    return *r.discharge * flow_factor;
-                  },
-                  flow_panel, spec.max_gap_ms),
+                  readings, [&](const PlotReading& r) { return scaled(r.discharge); }, flow_panel,
+                  spec.max_gap_ms),
               "discharge", "stroke:#08306b;stroke-width:1.6;stroke-linejoin:round");
   draw_series(svg,
               runs_of(
@@ -210,6 +239,13 @@ std::string hydrograph_svg(const std::vector<PlotReading>& readings, const Hydro
     draw_mark(svg, mark, {kLeft + 6, legend_y - 4});
     svg.text({kLeft + 18, legend_y},
              fmt::format("{}: {}", kMarkStyles[static_cast<int>(mark)].name, flags.joined(' ')),
+             Anchor::start, kFontSize - 1);
+    legend_y += 17;
+  }
+  if (std::any_of(readings.begin(), readings.end(), [](const PlotReading& r) { return r.band; })) {
+    svg.rect(kLeft, legend_y - 10, 12, 10, "fill:#6baed6;fill-opacity:0.35;stroke:none");
+    svg.text({kLeft + 18, legend_y},
+             "shaded: the discharge's uncertainty band, about 95 % (docs/uncertainty.md)",
              Anchor::start, kFontSize - 1);
     legend_y += 17;
   }

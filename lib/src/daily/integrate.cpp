@@ -4,6 +4,7 @@
 #include <bit>
 
 #include "stagewell/daily.hpp"
+#include "stagewell/uncertainty.hpp"
 
 namespace stagewell::daily {
 namespace {
@@ -24,6 +25,19 @@ double interpolate(std::int64_t a, double qa, std::int64_t b, double qb, std::in
   if (t == b) return qb;
   const double fraction = static_cast<double>(t - a) / static_cast<double>(b - a);
   return qa + (qb - qa) * fraction;
+}
+
+// The ends of a used reading's band (uncertainty.hpp).
+double low_end(const DayReading& r) { return *band_low(r.discharge, r.band); }
+double high_end(const DayReading& r) { return *band_high(r.discharge, r.band); }
+
+// The volume (L^3) from a to b of the straight line through (a, qa) and (b, qb), over the part
+// [lo, hi] of it.
+double trapezoid(std::int64_t a, double qa, std::int64_t b, double qb, std::int64_t lo,
+                 std::int64_t hi) {
+  const double q_lo = interpolate(a, qa, b, qb, lo);
+  const double q_hi = interpolate(a, qa, b, qb, hi);
+  return 0.5 * (q_lo + q_hi) * (static_cast<double>(hi - lo) / 1000.0);
 }
 
 // Counts a reading timed within the day.
@@ -68,7 +82,9 @@ DayFigures compute_day(std::span<const DayReading> readings, Day day, const DayC
                        [](const DayReading& r, std::int64_t t) { return r.time_ms < t; });
 
   std::array<std::int64_t, 32> per_bit{};
-  double volume = 0.0;                   // m^3 or ft^3
+  double volume = 0.0;  // m^3 or ft^3
+  double volume_low = 0.0;
+  double volume_high = 0.0;
   const DayReading* previous = nullptr;  // the last used reading, if no excluded one came since
   for (auto it = first; it != readings.end() && it->time_ms <= end + rules.max_gap_ms; ++it) {
     const DayReading& reading = *it;
@@ -88,11 +104,9 @@ DayFigures compute_day(std::span<const DayReading> readings, Day day, const DayC
       const std::int64_t lo = std::max(a, start);
       const std::int64_t hi = std::min(b, end);
       if (hi > lo) {
-        const double qa = *previous->discharge;
-        const double qb = *reading.discharge;
-        const double q_lo = interpolate(a, qa, b, qb, lo);
-        const double q_hi = interpolate(a, qa, b, qb, hi);
-        volume += 0.5 * (q_lo + q_hi) * (static_cast<double>(hi - lo) / 1000.0);
+        volume += trapezoid(a, *previous->discharge, b, *reading.discharge, lo, hi);
+        volume_low += trapezoid(a, low_end(*previous), b, low_end(reading), lo, hi);
+        volume_high += trapezoid(a, high_end(*previous), b, high_end(reading), lo, hi);
         out.covered_ms += hi - lo;
       }
     }
@@ -101,6 +115,8 @@ DayFigures compute_day(std::span<const DayReading> readings, Day day, const DayC
 
   if (out.covered_ms > 0) {
     out.volume = volume;
+    out.volume_low = volume_low;
+    out.volume_high = volume_high;
     out.mean_discharge = volume / (static_cast<double>(out.covered_ms) / 1000.0);
   }
   out.coverage = static_cast<double>(out.covered_ms) / static_cast<double>(end - start);

@@ -10,7 +10,8 @@ namespace stagewell::daily {
 namespace {
 
 // Raised when the method itself changes, so that stored figures are recomputed on upgrade.
-constexpr int kMethodVersion = 1;
+// 2: the volumes of the band's ends (volume_low, volume_high).
+constexpr int kMethodVersion = 2;
 
 // Days read and computed at a time by a full recomputation.
 constexpr int kChunkDays = 7;

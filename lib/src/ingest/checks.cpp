@@ -39,6 +39,12 @@ bool SiteChecker::too_fast(const Entry& other, std::int64_t time_ms, double stag
   return std::fabs(stage - other.stage) / hours > *spec_.max_rate;
 }
 
+std::optional<PastReading> SiteChecker::neighbour(const Entry& before, std::int64_t time_ms) const {
+  if (before.time_ms >= time_ms) return std::nullopt;
+  if (max_gap_ms_ > 0 && time_ms - before.time_ms > max_gap_ms_) return std::nullopt;
+  return PastReading{before.time_ms, before.stage};
+}
+
 CheckResult SiteChecker::check(std::int64_t time_ms, double stage, std::int64_t now_ms) {
   CheckResult result;
   const bool plausible = in_range(stage);
@@ -69,6 +75,7 @@ void SiteChecker::check_in_order(std::int64_t time_ms, double stage, bool plausi
     if (previous != window_.rend() && too_fast(*previous, time_ms, stage)) {
       result.flags.set(Flag::unsteady);
     }
+    if (previous != window_.rend()) result.previous = neighbour(*previous, time_ms);
     track_spike(time_ms, stage, result);
     track_flatline(time_ms, stage, result);
   }
@@ -93,6 +100,7 @@ void SiteChecker::check_late(std::int64_t time_ms, double stage, bool plausible,
     const bool fast_before = earlier != window_.rend() && too_fast(*earlier, time_ms, stage);
     const bool fast_after = later != window_.end() && too_fast(*later, time_ms, stage);
     if (fast_before || fast_after) result.flags.set(Flag::unsteady);
+    if (earlier != window_.rend()) result.previous = neighbour(*earlier, time_ms);
   }
   window_.insert(position, Entry{time_ms, stage, plausible});
   trim_window();

@@ -317,7 +317,7 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
   }
   const CheckResult checked = site.checker.check(record.time_ms, record.stage, state_->clock());
   const ComputedReading computed =
-      site.history->compute(record.time_ms, record.stage, checked.flags);
+      site.history->compute(record.time_ms, record.stage, checked.flags, checked.previous);
   StoredReading out;
   out.site = site.key;
   out.time_ms = record.time_ms;
@@ -326,6 +326,8 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
   out.flags = computed.flags;
   out.depth = computed.depth;
   out.discharge = computed.discharge;
+  out.band = computed.band;
+  out.discharge_jones = computed.discharge_jones;
 
   auto inserted = (*batch)->insert(out);
   if (!inserted) return std::unexpected(inserted.error());
@@ -338,7 +340,8 @@ Result<ReadingOutcome> Ingestor::reading(const Record& record, const SourcePosit
       if (!out.flags.has(Flag::future)) {
         site.newest_ms = std::max(site.newest_ms.value_or(out.time_ms), out.time_ms);
       }
-      if (state_->daily) state_->daily->stored(site.key, {out.time_ms, out.discharge, out.flags});
+      if (state_->daily)
+        state_->daily->stored(site.key, {out.time_ms, out.discharge, out.flags, out.band});
       state_->count_flags(out.flags);
       if (site.alarms) {
         auto& events = state_->alarm_scratch;

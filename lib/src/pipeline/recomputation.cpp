@@ -175,6 +175,7 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
       s.checker.seed(seed);
     }
     Flags checked;
+    std::optional<PastReading> previous;
     if (reading.flags.has(Flag::future)) {
       // Changes no check state, as at ingest; only the range check is its own.
       SiteChecker alone(s.checks);
@@ -183,6 +184,7 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
       // In time order and "now" at the reading: neither late nor future can arise here.
       const CheckResult result = s.checker.check(reading.time_ms, reading.stage, reading.time_ms);
       checked = result.flags;
+      previous = result.previous;
       for (const EarlierFlag& earlier : result.earlier) {
         const auto it = std::lower_bound(
             stored.begin(), stored.end(), earlier.time_ms,
@@ -200,7 +202,7 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
     Flags kept = reading.flags;
     kept = Flags(kept.bits() & kArrivalFlags.bits());
     checked |= kept;
-    computed.push_back(s.history.compute(reading.time_ms, reading.stage, checked));
+    computed.push_back(s.history.compute(reading.time_ms, reading.stage, checked, previous));
   }
 
   std::optional<std::int64_t> first_changed;
@@ -208,10 +210,15 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
   for (std::size_t i = 0; i < stored.size(); ++i) {
     const StoredReading& old = stored[i];
     const ComputedReading& now = computed[i];
+    // readings_changed counts what the recomputations view says: depth, discharge or flags. A
+    // band or Jones estimate that changes alone is written too, and its days refreshed (their band
+    // volumes), without counting.
     const bool values_changed =
         old.depth != now.depth || old.discharge != now.discharge || !(old.flags == now.flags);
+    const bool estimates_changed =
+        old.band != now.band || old.discharge_jones != now.discharge_jones;
     const bool version_changed = old.config != now.config;
-    if (!values_changed && !version_changed) continue;
+    if (!values_changed && !estimates_changed && !version_changed) continue;
     if (auto done = readings.rewrite(*batch, s.key, old.time_ms, now); !done) return done;
     if (version_changed) {
       ++s.totals.readings_recomputed;
@@ -221,6 +228,8 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
       ++s.totals.readings_changed;
       s.totals.max_discharge_change =
           std::max(s.totals.max_discharge_change, difference(old.discharge, now.discharge));
+    }
+    if (values_changed || estimates_changed) {
       if (!first_changed) first_changed = old.time_ms;
       last_changed = old.time_ms;
     }
@@ -262,8 +271,7 @@ Result<void> Recomputation::step(Store& store, std::int64_t max_readings) {
     // Finished: the wall clock, never before the start (which a test's clock may set ahead).
     const auto finished =
         last_step ? std::optional(std::max(system_now_ms(), s.started_ms)) : std::nullopt;
-    if (auto done = s.record.write(store, *batch, s.key, s.started_ms, s.totals, finished);
-        !done) {
+    if (auto done = s.record.write(store, *batch, s.key, s.started_ms, s.totals, finished); !done) {
       return done;
     }
   }

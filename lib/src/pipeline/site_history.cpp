@@ -122,7 +122,8 @@ bool SiteHistory::unusable(std::int64_t time_ms, double stage) const {
           !std::isfinite(hydraulics.channel->discharge(depth)));
 }
 
-ComputedReading SiteHistory::compute(std::int64_t time_ms, double stage, Flags checked) const {
+ComputedReading SiteHistory::compute(std::int64_t time_ms, double stage, Flags checked,
+                                     const std::optional<PastReading>& previous) const {
   const HistorySegment& segment = segment_at(time_ms);
   const Hydraulics& hydraulics = *hydraulics_[segment.hydraulics];
   ComputedReading out;
@@ -142,6 +143,30 @@ ComputedReading SiteHistory::compute(std::int64_t time_ms, double stage, Flags c
   } else {
     out.discharge = hydraulics.rating->discharge(out.depth);
     if (hydraulics.supercritical->contains(out.depth)) out.flags.set(Flag::supercritical);
+  }
+  if (out.discharge && *out.discharge > 0.0) {
+    const SiteConfig& keys = *segment.keys;
+    // Relative to the stored discharge; the top width only where a Jones estimate is formed.
+    StageResponse response;
+    response.discharge = *out.discharge;
+    response.dq_dh = rating_slope(*hydraulics.channel, out.depth);
+    if (previous) response.top_width = hydraulics.channel->section().geometry(out.depth).top_width;
+    const double stage_to_length = units::to_m(keys.stage.units) / units::length_to_m(system_);
+    if (const auto band = relative_band(response, keys.uncertainty, stage_to_length)) {
+      out.band = band_from_bp(band_to_bp(*band));  // as stored (uncertainty.hpp)
+    }
+    if (previous) {
+      const double seconds = static_cast<double>(time_ms - previous->time_ms) / 1000.0;
+      const double rate = (out.depth - depth(previous->time_ms, previous->stage)) / seconds;
+      if (const auto jones = jones_discharge(response, keys.slope, rate)) {
+        // Judged before the estimate is rounded to a basis point for storing.
+        if (keys.checks.unsteady > 0.0 &&
+            std::fabs(*jones / *out.discharge - 1.0) > keys.checks.unsteady) {
+          out.flags.set(Flag::unsteady);
+        }
+        out.discharge_jones = jones_from_bp(*out.discharge, jones_to_bp(*out.discharge, *jones));
+      }
+    }
   }
   return out;
 }

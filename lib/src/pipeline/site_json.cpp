@@ -64,7 +64,12 @@ nlohmann::json site_json(const SiteConfig& site, units::System system) {
         {"max_rate", optional_json(site.checks.max_rate)},
         {"flatline_s", site.checks.flatline_s},
         {"max_gap_s", site.checks.max_gap_s},
-        {"max_clock_skew_s", site.checks.max_clock_skew_s}}},
+        {"max_clock_skew_s", site.checks.max_clock_skew_s},
+        {"unsteady", site.checks.unsteady}}},
+      {"uncertainty",
+       {{"roughness", site.uncertainty.roughness},
+        {"slope", site.uncertainty.slope},
+        {"stage", site.uncertainty.stage}}},
   };
   return out;
 }

@@ -11,19 +11,12 @@ namespace stagewell {
 
 using daily::Day;
 using daily::DayFigures;
+using store_detail::bind_optional;
 using store_detail::each_row;
 using store_detail::first_row;
 using store_detail::optional_int64;
 
 namespace {
-
-void bind_optional(sqlite::Statement& s, int index, std::optional<std::int64_t> value) {
-  if (value) {
-    s.bind(index, *value);
-  } else {
-    s.bind_null(index);
-  }
-}
 
 // Runs `sql` with the site and, when given, the day as its parameters ?1 and ?2.
 Result<void> run_for(sqlite::Connection& connection, std::string_view sql, SiteKey site,
@@ -48,13 +41,15 @@ Result<void> upsert_figures(sqlite::Connection& connection, SiteKey site, std::s
   auto upsert = connection.cached(
       "INSERT INTO daily_figures (site_key, day, start_ms, end_ms, volume, mean_discharge, "
       "min_discharge, min_time_ms, max_discharge, max_time_ms, covered_ms, coverage, readings, "
-      "flagged) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14) "
+      "flagged, volume_low, volume_high) "
+      "VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16) "
       "ON CONFLICT (site_key, day) DO UPDATE SET start_ms = excluded.start_ms, "
       "end_ms = excluded.end_ms, volume = excluded.volume, "
       "mean_discharge = excluded.mean_discharge, min_discharge = excluded.min_discharge, "
       "min_time_ms = excluded.min_time_ms, max_discharge = excluded.max_discharge, "
       "max_time_ms = excluded.max_time_ms, covered_ms = excluded.covered_ms, "
-      "coverage = excluded.coverage, readings = excluded.readings, flagged = excluded.flagged");
+      "coverage = excluded.coverage, readings = excluded.readings, flagged = excluded.flagged, "
+      "volume_low = excluded.volume_low, volume_high = excluded.volume_high");
   if (!upsert) return std::unexpected(upsert.error());
   auto& s = **upsert;
   s.bind(1, site.value);
@@ -71,6 +66,8 @@ Result<void> upsert_figures(sqlite::Connection& connection, SiteKey site, std::s
   s.bind(12, f.coverage);
   s.bind(13, f.readings);
   s.bind(14, f.flagged);
+  s.bind(15, f.volume_low);
+  s.bind(16, f.volume_high);
   return s.run();
 }
 
@@ -121,6 +118,8 @@ Result<DayFigures> figures_row(const sqlite::Statement& s) {
   f.coverage = s.column_double(10);
   f.readings = s.column_int64(11);
   f.flagged = s.column_int64(12);
+  f.volume_low = s.column_optional_double(13);
+  f.volume_high = s.column_optional_double(14);
   return f;
 }
 
@@ -163,7 +162,8 @@ Result<std::vector<DayFigures>> DailyTable::days(SiteKey site, Day from, Day to)
   {
     auto select = core_->db().cached(
         "SELECT day, start_ms, end_ms, volume, mean_discharge, min_discharge, min_time_ms, "
-        "max_discharge, max_time_ms, covered_ms, coverage, readings, flagged FROM daily_figures "
+        "max_discharge, max_time_ms, covered_ms, coverage, readings, flagged, volume_low, "
+        "volume_high FROM daily_figures "
         "WHERE site_key = ?1 AND day >= ?2 AND day <= ?3 ORDER BY day");
     if (!select) return std::unexpected(select.error());
     bind_days(**select, site, first, last);

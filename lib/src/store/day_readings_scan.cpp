@@ -19,6 +19,7 @@
 #include <vector>
 
 #include "stagewell/readings_table.hpp"
+#include "stagewell/uncertainty.hpp"
 #include "store/store_core.hpp"
 
 namespace stagewell {
@@ -44,14 +45,14 @@ struct Scan {
   }
 };
 
-// One row: (time_ms, discharge, flags, the Scan pointer).
-void take_row(sqlite3_context* context, int /*arguments: 4*/, sqlite3_value** values) {
+// One row: (time_ms, discharge, flags, band, the Scan pointer).
+void take_row(sqlite3_context* context, int /*arguments: 5*/, sqlite3_value** values) {
   // The pointer is the same for every row: fetched at the first, then kept in the aggregate's
   // own state (SQLite zeroes it when the run starts).
   auto** state = static_cast<Scan**>(sqlite3_aggregate_context(context, sizeof(Scan*)));
   if (state == nullptr) return sqlite3_result_error_nomem(context);
   if (*state == nullptr) {
-    *state = static_cast<Scan*>(sqlite3_value_pointer(values[3], kScanType));
+    *state = static_cast<Scan*>(sqlite3_value_pointer(values[4], kScanType));
     if (*state == nullptr) {
       return sqlite3_result_error(context, "stagewell_day_readings: no scan was bound", -1);
     }
@@ -63,6 +64,9 @@ void take_row(sqlite3_context* context, int /*arguments: 4*/, sqlite3_value** va
     reading.discharge = sqlite3_value_double(values[1]);
   }
   reading.flags = Flags(static_cast<std::uint32_t>(sqlite3_value_int64(values[2])));
+  if (sqlite3_value_type(values[3]) != SQLITE_NULL) {
+    reading.band = band_from_bp(sqlite3_value_int64(values[3]));
+  }
   // SQLite walks a range of the primary key in key order, which is time order; SQL promises an
   // aggregate no order, though, so the order is checked rather than assumed.
   if (scan.last_ms && reading.time_ms <= *scan.last_ms) {
@@ -87,7 +91,7 @@ namespace store_detail {
 Result<void> add_day_readings_function(sqlite::Connection& connection) {
   // DIRECTONLY: not from a view or a trigger, whoever wrote them.
   const int rc =
-      sqlite3_create_function_v2(connection.handle(), kFunction, 4, SQLITE_UTF8 | SQLITE_DIRECTONLY,
+      sqlite3_create_function_v2(connection.handle(), kFunction, 5, SQLITE_UTF8 | SQLITE_DIRECTONLY,
                                  nullptr, nullptr, take_row, finish, nullptr);
   if (rc != SQLITE_OK) {
     return std::unexpected(
@@ -107,7 +111,7 @@ Result<void> ReadingsTable::scan_day_readings(
   {
     // One range of the primary key (site_key, time_ms).
     auto select = core_->db().cached(
-        "SELECT stagewell_day_readings(time_ms, discharge, flags, ?4) FROM readings "
+        "SELECT stagewell_day_readings(time_ms, discharge, flags, band_bp, ?4) FROM readings "
         "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms <= ?3");
     if (!select) return std::unexpected(select.error());
     auto& s = **select;

@@ -20,7 +20,8 @@ using store_detail::row_limit;
 
 namespace {
 
-// A StoredReading of `site` from the columns time_ms, stage, depth, discharge, flags, config_id.
+// A StoredReading of `site` from the columns time_ms, stage, depth, discharge, flags, config_id,
+// band, discharge_jones.
 StoredReading stored_reading(SiteKey site, const sqlite::Statement& s) {
   return StoredReading{.site = site,
                        .time_ms = s.column_int64(0),
@@ -28,14 +29,17 @@ StoredReading stored_reading(SiteKey site, const sqlite::Statement& s) {
                        .depth = s.column_double(2),
                        .discharge = s.column_optional_double(3),
                        .flags = flags_column(s, 4),
-                       .config = ConfigVersionId{s.column_int64(5)}};
+                       .config = ConfigVersionId{s.column_int64(5)},
+                       .band = store_detail::band_column(s, 6),
+                       .discharge_jones = store_detail::jones_column(s, 3, 7)};
 }
 
 // A SELECT of the columns stored_reading() takes, depth computed from the version's terms
 // (schema 6), followed by `rest` (a WHERE clause over `readings AS r`, an ORDER BY...).
 std::string stored_readings_sql(std::string_view rest) {
   return fmt::format(
-      "SELECT r.time_ms, r.stage, {}, r.discharge, r.flags, r.config_id FROM readings AS r "
+      "SELECT r.time_ms, r.stage, {}, r.discharge, r.flags, r.config_id, r.band_bp, r.jones_bp "
+      "FROM readings AS r "
       "LEFT JOIN version_depth_terms AS d ON d.config_id = r.config_id {}",
       store_detail::kDepthSql, rest);
 }
@@ -161,11 +165,12 @@ Result<void> ReadingsTable::day_readings(SiteKey site, std::int64_t from_ms, std
   out.clear();
   // One range of the readings' primary key (site_key, time_ms): already in time order.
   auto select = core_->db().cached(
-      "SELECT time_ms, discharge, flags FROM readings "
+      "SELECT time_ms, discharge, flags, band_bp FROM readings "
       "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms <= ?3 ORDER BY time_ms");
   if (!select) return std::unexpected(select.error());
   return each_row(bind_range(**select, site, from_ms, to_ms), [&](const auto& row) {
-    out.push_back({row.column_int64(0), row.column_optional_double(1), flags_column(row, 2)});
+    out.push_back({row.column_int64(0), row.column_optional_double(1), flags_column(row, 2),
+                   store_detail::band_column(row, 3)});
   });
 }
 
@@ -183,13 +188,13 @@ Result<std::vector<plot::PlotReading>> ReadingsTable::plot_readings(SiteKey site
                                                                     std::int64_t from_ms,
                                                                     std::int64_t to_ms) {
   auto select = core_->db().cached(
-      "SELECT time_ms, stage, discharge, flags FROM readings "
+      "SELECT time_ms, stage, discharge, flags, band_bp FROM readings "
       "WHERE site_key = ?1 AND time_ms >= ?2 AND time_ms < ?3 ORDER BY time_ms");
   if (!select) return std::unexpected(select.error());
   std::vector<plot::PlotReading> readings;
   auto read = each_row(bind_range(**select, site, from_ms, to_ms), [&](const auto& row) {
     readings.push_back({row.column_int64(0), row.column_double(1), row.column_optional_double(2),
-                        flags_column(row, 3)});
+                        flags_column(row, 3), store_detail::band_column(row, 4)});
   });
   if (!read) return std::unexpected(read.error());
   return readings;
@@ -212,8 +217,8 @@ Result<void> ReadingsTable::rewrite(WriteBatch& batch, SiteKey site, std::int64_
       batch, core_, [&](sqlite::Connection& connection) -> Result<void> {
         store_detail::BatchAccess::rewrote_readings(batch);
         auto update = connection.cached(
-            "UPDATE readings SET discharge = ?3, flags = ?4, config_id = ?5 "
-            "WHERE site_key = ?1 AND time_ms = ?2");
+            "UPDATE readings SET discharge = ?3, flags = ?4, config_id = ?5, band_bp = ?6, "
+            "jones_bp = ?7 WHERE site_key = ?1 AND time_ms = ?2");
         if (!update) return std::unexpected(update.error());
         // values.depth is not stored: the new version's terms give it (schema 6).
         auto& s = **update;
@@ -222,6 +227,9 @@ Result<void> ReadingsTable::rewrite(WriteBatch& batch, SiteKey site, std::int64_
         s.bind(3, values.discharge);
         s.bind(4, static_cast<std::int64_t>(values.flags.bits()));
         s.bind(5, values.config.value);
+        store_detail::bind_optional(s, 6, store_detail::band_bp(values.band));
+        store_detail::bind_optional(
+            s, 7, store_detail::jones_bp(values.discharge, values.discharge_jones));
         return s.run();
       });
 }

@@ -8,6 +8,7 @@
 #include <utility>
 
 #include "stagewell/flags.hpp"
+#include "stagewell/uncertainty.hpp"
 #include "store/sqlite.hpp"
 
 namespace stagewell::store_detail {
@@ -47,6 +48,36 @@ inline std::int64_t row_limit(std::size_t rows) {
 
 inline Flags flags_column(const sqlite::Statement& s, int column) {
   return Flags(static_cast<std::uint32_t>(s.column_int64(column)));
+}
+
+// A whole number that may be NULL, bound.
+inline void bind_optional(sqlite::Statement& s, int index, std::optional<std::int64_t> value) {
+  if (value) {
+    s.bind(index, *value);
+  } else {
+    s.bind_null(index);
+  }
+}
+
+// A reading's band and Jones estimate as the readings table keeps them, in whole basis points
+// (uncertainty.hpp), and back.
+inline std::optional<std::int64_t> band_bp(std::optional<double> band) {
+  if (!band) return std::nullopt;
+  return band_to_bp(*band);
+}
+inline std::optional<std::int64_t> jones_bp(std::optional<double> discharge,
+                                            std::optional<double> jones) {
+  if (!jones || !discharge || !(*discharge > 0.0)) return std::nullopt;
+  return jones_to_bp(*discharge, *jones);
+}
+inline std::optional<double> band_column(const sqlite::Statement& s, int column) {
+  if (s.column_is_null(column)) return std::nullopt;
+  return band_from_bp(s.column_int64(column));
+}
+inline std::optional<double> jones_column(const sqlite::Statement& s, int discharge_column,
+                                          int column) {
+  if (s.column_is_null(column) || s.column_is_null(discharge_column)) return std::nullopt;
+  return jones_from_bp(s.column_double(discharge_column), s.column_int64(column));
 }
 
 }  // namespace stagewell::store_detail

@@ -25,8 +25,12 @@ std::string_view cut_raw_line(std::string_view raw) {
 }
 
 Result<void> check_finite(const StoredReading& reading) {
+  const auto finite_or_none = [](const std::optional<double>& value) {
+    return !value || std::isfinite(*value);
+  };
   const bool finite = std::isfinite(reading.stage) && std::isfinite(reading.depth) &&
-                      (!reading.discharge || std::isfinite(*reading.discharge));
+                      finite_or_none(reading.discharge) && finite_or_none(reading.band) &&
+                      finite_or_none(reading.discharge_jones);
   if (finite) return {};
   // SQLite would store NaN as NULL and infinities as values no view can explain.
   return fail(ErrorKind::invalid_argument,
@@ -36,7 +40,7 @@ Result<void> check_finite(const StoredReading& reading) {
 }
 
 // The columns an INSERT of a reading binds, from parameter `first` on (bind_reading).
-constexpr std::size_t kReadingColumns = 6;
+constexpr std::size_t kReadingColumns = 8;
 
 void bind_reading(sqlite::Statement& s, int first, const StoredReading& reading) {
   s.bind(first, reading.site.value);
@@ -45,6 +49,9 @@ void bind_reading(sqlite::Statement& s, int first, const StoredReading& reading)
   s.bind(first + 3, reading.discharge);  // depth is not stored: the version's terms give it
   s.bind(first + 4, static_cast<std::int64_t>(reading.flags.bits()));
   s.bind(first + 5, reading.config.value);
+  store_detail::bind_optional(s, first + 6, store_detail::band_bp(reading.band));
+  store_detail::bind_optional(s, first + 7,
+                              store_detail::jones_bp(reading.discharge, reading.discharge_jones));
 }
 
 // The reading INSERT on loan. `held` keeps it once prepared (Core::insert_reading). Every
@@ -54,8 +61,9 @@ Result<sqlite::CachedStatement> reading_insert(sqlite::Connection& connection,
   using Loan = sqlite::CachedStatement;
   if (held != nullptr) return Loan(held, Loan::Bindings::keep);
   auto insert = connection.cached(
-      "INSERT INTO readings (site_key, time_ms, stage, discharge, flags, config_id) "
-      "VALUES (?1, ?2, ?3, ?4, ?5, ?6) ON CONFLICT (site_key, time_ms) DO NOTHING");
+      "INSERT INTO readings (site_key, time_ms, stage, discharge, flags, config_id, band_bp, "
+      "jones_bp) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8) "
+      "ON CONFLICT (site_key, time_ms) DO NOTHING");
   if (insert) held = &**insert;
   return insert;
 }
@@ -88,9 +96,10 @@ Result<sqlite::CachedStatement> readings_insert(sqlite::Connection& connection,
   using Loan = sqlite::CachedStatement;
   if (held != nullptr) return Loan(held, Loan::Bindings::keep);
   std::string sql =
-      "INSERT INTO readings (site_key, time_ms, stage, discharge, flags, config_id) VALUES ";
+      "INSERT INTO readings (site_key, time_ms, stage, discharge, flags, config_id, band_bp, "
+      "jones_bp) VALUES ";
   for (std::size_t i = 0; i < kReadingsPerInsert; ++i) {
-    sql += i == 0 ? "(?,?,?,?,?,?)" : ",(?,?,?,?,?,?)";
+    sql += i == 0 ? "(?,?,?,?,?,?,?,?)" : ",(?,?,?,?,?,?,?,?)";
   }
   sql += " ON CONFLICT (site_key, time_ms) DO NOTHING";
   auto insert = connection.cached(sql);

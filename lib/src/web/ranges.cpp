@@ -63,6 +63,9 @@ Result<HttpAnswer> readings_answer(StatusApi::State& state, const SiteConfig& si
                           {"stage", reading.stage},
                           {"depth", reading.depth},
                           {"discharge", optional_number(reading.discharge)},
+                          {"discharge_low", optional_number(band_low(reading))},
+                          {"discharge_high", optional_number(band_high(reading))},
+                          {"discharge_jones", optional_number(reading.discharge_jones)},
                           {"flags", flag_names(reading.flags)}});
     }
   }
@@ -108,6 +111,8 @@ Result<HttpAnswer> daily_answer(StatusApi::State& state, const SiteConfig& site,
     for (const daily::DayFigures& figures : *stored) {
       days.push_back({{"day", daily::format_day(figures.day)},
                       {"volume", optional_number(figures.volume)},
+                      {"volume_low", optional_number(figures.volume_low)},
+                      {"volume_high", optional_number(figures.volume_high)},
                       {"mean_discharge", optional_number(figures.mean_discharge)},
                       {"min_discharge", optional_number(figures.min_discharge)},
                       {"min_time", time_or_null(figures.min_time_ms)},

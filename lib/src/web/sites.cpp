@@ -1,5 +1,6 @@
 // /api/sites and /api/sites/{id}: every configured site (or one) with its units, location, latest
-// reading, today's volume so far and its open alarms. One primary-key lookup per site and table: bounded whatever the database's size.
+// reading, today's volume so far and its open alarms. One primary-key lookup per site and table:
+// bounded whatever the database's size.
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -26,6 +27,10 @@ Result<json> latest_reading(StatusApi::State& state, SiteKey key, std::int64_t n
               {"stage", reading.stage},
               {"depth", reading.depth},
               {"discharge", optional_number(reading.discharge)},
+              {"discharge_low", optional_number(band_low(reading))},
+              {"discharge_high", optional_number(band_high(reading))},
+              {"band_percent", optional_number(band_percent(reading))},
+              {"discharge_jones", optional_number(reading.discharge_jones)},
               {"flags", flag_names(reading.flags)}};
 }
 
@@ -39,6 +44,8 @@ Result<json> day_figures(StatusApi::State& state, SiteKey key, daily::Day day) {
   const daily::DayFigures& figures = days->front();
   return json{{"day", text},
               {"volume", optional_number(figures.volume)},
+              {"volume_low", optional_number(figures.volume_low)},
+              {"volume_high", optional_number(figures.volume_high)},
               {"coverage", figures.coverage},
               {"readings", figures.readings},
               {"flagged", figures.flagged}};
@@ -90,26 +97,27 @@ json alarm_entries(const std::vector<alarms::AlarmRecord>& open, const SiteConfi
 // One site as /api/sites lists it and /api/sites/{id} answers it.
 Result<json> site_entry(StatusApi::State& state, const SiteConfig& site,
                         const std::map<std::string, std::vector<alarms::AlarmRecord>>& alarms,
-                        daily::Day today,
-                        std::int64_t now_ms) {
+                        daily::Day today, std::int64_t now_ms) {
   const auto system = state.config.units;
-  json entry{
-      {"id", site.id},
-      {"name", site.name},
-      // UCUM codes (The Unified Code for Units of Measure), as everywhere in the API.
-      {"stage_unit", units::ucum(site.stage.units)},
-      {"depth_unit", units::ucum_length(system)},
-      {"discharge_unit", units::ucum_discharge(system)},
-      {"volume_unit", units::ucum_volume(system)},
-      {"location", site.location ? json{{"latitude", site.location->latitude},
-                                        {"longitude", site.location->longitude}}
-                                 : json(nullptr)},
-      {"datum", site.datum ? json(*site.datum) : json(nullptr)},
-      {"max_gap_s", site.checks.max_gap_s},
-      {"latest", nullptr},
-      {"today",
-       {{"day", daily::format_day(today)}, {"volume", nullptr}, {"coverage", 0.0}, {"readings", 0}}},
-      {"alarms", json::array()}};
+  json entry{{"id", site.id},
+             {"name", site.name},
+             // UCUM codes (The Unified Code for Units of Measure), as everywhere in the API.
+             {"stage_unit", units::ucum(site.stage.units)},
+             {"depth_unit", units::ucum_length(system)},
+             {"discharge_unit", units::ucum_discharge(system)},
+             {"volume_unit", units::ucum_volume(system)},
+             {"location", site.location ? json{{"latitude", site.location->latitude},
+                                               {"longitude", site.location->longitude}}
+                                        : json(nullptr)},
+             {"datum", site.datum ? json(*site.datum) : json(nullptr)},
+             {"max_gap_s", site.checks.max_gap_s},
+             {"latest", nullptr},
+             {"today",
+              {{"day", daily::format_day(today)},
+               {"volume", nullptr},
+               {"coverage", 0.0},
+               {"readings", 0}}},
+             {"alarms", json::array()}};
   auto key = site_key(state, site.id);
   if (!key) return std::unexpected(key.error());
   if (*key) {
@@ -128,12 +136,9 @@ Result<json> site_entry(StatusApi::State& state, const SiteConfig& site,
 
 // What every answer about sites starts with.
 json envelope(StatusApi::State& state, daily::Day today, bool alarms_known, std::int64_t now_ms) {
-  return json{{"now", format_timestamp_utc(now_ms)},
-              {"timezone", state.config.timezone},
-              {"today", daily::format_day(today)},
-              {"units", units::name(state.config.units)},
-              {"alarms_available", alarms_known},
-              {"caution", kDischargeCaution}};
+  return json{{"now", format_timestamp_utc(now_ms)}, {"timezone", state.config.timezone},
+              {"today", daily::format_day(today)},   {"units", units::name(state.config.units)},
+              {"alarms_available", alarms_known},    {"caution", kDischargeCaution}};
 }
 
 }  // namespace

@@ -35,6 +35,11 @@ daily::Day local_day(const StatusApi::State& state, std::int64_t time_ms);
 // Flag names of a stored flag bitmask, in flag order.
 std::vector<std::string> flag_names(Flags flags);
 
+// The ends of a reading's band and its half-width in percent (uncertainty.hpp).
+std::optional<double> band_low(const StoredReading& reading);
+std::optional<double> band_high(const StoredReading& reading);
+std::optional<double> band_percent(const StoredReading& reading);
+
 // A number that may be missing: JSON null when it is.
 template <typename T>
 nlohmann::json optional_number(const std::optional<T>& value) {

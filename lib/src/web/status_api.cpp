@@ -8,6 +8,7 @@
 #include <chrono>
 #include <nlohmann/json.hpp>
 
+#include "stagewell/uncertainty.hpp"
 #include "web/state.hpp"
 
 namespace stagewell {
@@ -54,6 +55,19 @@ std::vector<std::string> flag_names(Flags flags) {
     if (flags.has(flag)) names.emplace_back(name(flag));
   }
   return names;
+}
+
+std::optional<double> band_low(const StoredReading& reading) {
+  return stagewell::band_low(reading.discharge, reading.band);
+}
+
+std::optional<double> band_high(const StoredReading& reading) {
+  return stagewell::band_high(reading.discharge, reading.band);
+}
+
+std::optional<double> band_percent(const StoredReading& reading) {
+  if (!reading.discharge || !reading.band) return std::nullopt;
+  return 100.0 * *reading.band;
 }
 
 }  // namespace web_detail
