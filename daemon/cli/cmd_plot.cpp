@@ -85,6 +85,9 @@ Result<std::string> rating(Report& r, const std::string& period) {
       fmt::format("Rating in force at {}; gaugings of {}", format_timestamp_utc(now_ms), period);
   spec.units = r.units;
   spec.stage_symbol = std::string(units::symbol(r.site.stage.units));
+  spec.band_note =
+      "the band of the computed discharge (about 95 %) from the site's uncertainties of "
+      "roughness, slope and stage";
   return plot::rating_svg(curve, points, spec);
 }
 

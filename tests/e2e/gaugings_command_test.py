@@ -97,6 +97,25 @@ def check_rating_plot(r, path, view):
     # Coordinates are written to 0.01 px: a few thousandths of the axis in discharge.
     r.check("rating plot: the curve is Manning's equation with the n in force", worst < 0.02,
             f"worst {worst:.4f} m^3/s")
+    # The band Q (1 +- band) (uncertainty.hpp; its width is checked by the readings' tests): an
+    # area around the line, as far to the right of it as to the left (by its definition).
+    bands = group(root, "band")
+    r.check("rating plot: a band", len(bands) == 1)
+    if bands:
+        corners = [tuple(map(float, c.lstrip("ML").split(",")))
+                   for c in bands[0].find(f"{SVG}path").get("d").rstrip("Z").split()]
+        curve_points = [tuple(map(float, pair.split(","))) for pair in line.get("points").split()]
+        half = len(corners) // 2
+        lows, highs = corners[:half], corners[half:][::-1]
+        # The low end never goes below 0 (x = 90 px, the panel's left edge): those points are not
+        # symmetric by definition.
+        worst_asymmetry = max(abs((x - lo[0]) - (hi[0] - x)) for (x, _), lo, hi
+                              in zip(curve_points, lows, highs) if lo[0] > 90.01)
+        r.check("rating plot: the band is as wide on both sides of the line",
+                len(lows) == len(curve_points) and worst_asymmetry < 0.05,
+                f"worst {worst_asymmetry:.3f} px")
+        r.check("rating plot: the band has a width at the top",
+                highs[-1][0] - lows[-1][0] > 1.0, f"{lows[-1]} {highs[-1]}")
     stages = sorted(stage_of(float(c.get("cy"))) for c in circles)
     want = sorted(v[0] for v in view.values())
     r.check("rating plot: circles at the gaugings' stages",

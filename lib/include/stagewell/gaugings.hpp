@@ -85,7 +85,8 @@ Result<std::vector<GaugingImport>> import_gaugings(Store& store, const SiteHisto
 // The rating of the version in force at `time_ms` as the rating plot draws it: `count` stages
 // (>= 2) evenly from zero flow (or the checks' min_stage, when higher) to the top of the section
 // (or max_stage, when lower), each with its discharge (the same computation as a reading's, the
-// stage correction in force at `time_ms` included). Without a band.
+// stage correction in force at `time_ms` included), and the ends of its uncertainty band
+// (uncertainty.hpp, the site's `uncertainty`).
 std::vector<plot::RatingCurvePoint> rating_curve(const SiteHistory& history, units::System system,
                                                  std::int64_t time_ms, std::size_t count);
 

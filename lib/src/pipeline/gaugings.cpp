@@ -6,6 +6,7 @@
 #include <cmath>
 
 #include "stagewell/timestamp.hpp"
+#include "stagewell/uncertainty.hpp"
 
 namespace stagewell {
 
@@ -194,7 +195,16 @@ std::vector<plot::RatingCurvePoint> rating_curve(const SiteHistory& history, uni
     const double stage =
         low + (high - low) * static_cast<double>(i) / static_cast<double>(count - 1);
     const ComputedReading computed = history.compute(time_ms, stage, Flags{});
-    out.push_back({.stage = stage, .discharge = computed.discharge.value_or(0.0)});
+    plot::RatingCurvePoint point{.stage = stage, .discharge = computed.discharge.value_or(0.0)};
+    // The band as the readings get it (uncertainty.hpp): none at zero depth, where it is 0 wide.
+    std::optional<double> band;
+    if (computed.depth > 0.0) {
+      band = relative_band(stage_response(*channel, computed.depth), keys.uncertainty,
+                           units::to_m(keys.stage.units) / units::length_to_m(system));
+    }
+    point.low = band_low(computed.discharge, band);
+    point.high = band_high(computed.discharge, band);
+    out.push_back(point);
   }
   return out;
 }
