@@ -21,7 +21,8 @@ database=$demo/stagewell.db
 rm -rf "$demo"
 mkdir -p "$demo/incoming" "$demo/logger"
 start=$(date -u +%Y-%m-%dT%H:%M:%SZ)
-python3 deploy/make_demo_data.py history --now "$start" --out "$demo/incoming"
+python3 deploy/make_demo_data.py history --now "$start" --out "$demo/incoming" \
+  --gaugings "$demo/gaugings.csv"
 touch -d '-1 minute' "$demo"/incoming/*.csv   # settled: the service leaves files being written alone
 
 "$bin/stagewell" check --config "$config" >/dev/null
@@ -67,6 +68,8 @@ cat <<EOM
      sqlite3 -readonly $database "SELECT site, kind, raised, cleared, value, threshold FROM alarms;"
      sqlite3 -readonly $database "SELECT site, flags, count(*) FROM discharge WHERE flags != '' GROUP BY 1, 2;"
      $bin/stagewell flow --config $config --site brindlewick-creek --stage 2.6
+     $bin/stagewell gaugings import --config $config $demo/gaugings.csv
+     $bin/stagewell calibrate --config $config --site feeder-canal
 
    Discharge here is an estimate from Manning's equation: verify it with field measurements.
 EOM

@@ -2,9 +2,11 @@
 """The demo's stage readings (config/demo.yaml, the invented Brindlewick Valley), relative to the
 moment the demo starts. deploy/demo.sh runs both parts:
 
-  make_demo_data.py history --out DIR [--now TIME]
+  make_demo_data.py history --out DIR [--now TIME] [--gaugings FILE]
       One CSV file per site (site,time,stage) for the drop folder: a fortnight of readings every
-      10 minutes, the last one at TIME (default: now, whole seconds).
+      10 minutes, the last one at TIME (default: now, whole seconds). With --gaugings, also the
+      feeder canal's field measurements of the fortnight (GAUGINGS below) for
+      `stagewell gaugings import`.
   make_demo_data.py live --logger-dir DIR --start TIME [--speed S] [--until SECONDS]
       The loggers from TIME on: a reading per site every 10 seconds, appended to the followed
       files DIR/raceway-a.csv (time,stage; local standard time, UTC-07:00, without an offset)
@@ -32,6 +34,12 @@ Readings whose time has already come when the feeder starts (the service took a 
 history) are written at once. With --speed S they are instead played S times faster than the
 clock until they catch up with it, never ahead of it: tests start the schedule some minutes in
 the past and compress it this way. The values never depend on the pace.
+
+GAUGINGS: the ditch rider measured the feeder canal's discharge six times in the fortnight (days
+2 to 12, 10:00 local, current meter, 5 %), without reading the staff gauge: `stagewell gaugings
+import` takes the stage from the stored readings. The canal carries more than its configured n
+(0.030 with the weeds) says: the measurements follow Manning's equation with n = 0.027, with a
+scatter of 4 % (log-normal, seeded), so that `stagewell calibrate` has something to find.
 
 `history --now 2026-06-01T00:00:00-06:00` is the fortnight of 18 to 31 May 2026 (and one
 reading at midnight) that the examples in docs/ were made from and that the feeder canal's dated
@@ -239,6 +247,38 @@ def write_history(scenario, out):
         os.replace(path + ".part", path)
 
 
+# The feeder canal as config/demo.yaml describes it, and the n its gaugings follow.
+CANAL = dict(width=1.8, side_slope=1.5, slope=0.0004, offset_cm=2.0, zero_flow_cm=5.0)
+CANAL_TRUE_N = 0.027
+GAUGING_DAYS = (2, 4, 6, 8, 10, 12)
+
+
+def canal_discharge(stage_cm, n):
+    """Manning's equation (SI) for the canal's trapezoid at a logger stage, m^3/s."""
+    depth = (stage_cm + CANAL["offset_cm"] - CANAL["zero_flow_cm"]) / 100.0
+    if depth <= 0:
+        return 0.0
+    z, b = CANAL["side_slope"], CANAL["width"]
+    area = (b + z * depth) * depth
+    perimeter = b + 2 * depth * math.sqrt(1 + z * z)
+    return area * (area / perimeter) ** (2 / 3) * math.sqrt(CANAL["slope"]) / n
+
+
+def write_gaugings(scenario, path):
+    stages = {t: s["feeder-canal"] for t, s in scenario.history()}
+    scatter = random.Random(20260517)
+    lines = ["site,time,discharge,method,uncertainty,note"]
+    for day in GAUGING_DAYS:
+        t = scenario.on_grid(scenario.local(day, 10))  # a reading's time: its stage is exact
+        if t not in stages or canal_discharge(stages[t], CANAL_TRUE_N) <= 0:
+            continue
+        q = canal_discharge(stages[t], CANAL_TRUE_N) * math.exp(scatter.gauss(0.0, 0.04))
+        lines.append(f"feeder-canal,{t.astimezone(UTC).strftime('%Y-%m-%dT%H:%M:%SZ')},"
+                     f"{q:.4f},current meter,5,invented demo gauging at the lower headgate")
+    with open(path, "w") as f:
+        f.write("\n".join(lines) + "\n")
+
+
 def logger_line(t, stages):
     """The raceway logger's line: local standard time without an offset (config/demo.yaml)."""
     local = t.astimezone(LOGGER_ZONE).replace(tzinfo=None)
@@ -288,6 +328,7 @@ def main(argv=None):
     history = commands.add_parser("history", help="write the fortnight before --now")
     history.add_argument("--out", required=True, help="folder for one CSV file per site")
     history.add_argument("--now", type=parse_time, help="RFC 3339 with offset; default: now")
+    history.add_argument("--gaugings", help="also write the feeder canal's gaugings to this file")
     live = commands.add_parser("live", help="append live readings to the followed files")
     live.add_argument("--logger-dir", required=True)
     live.add_argument("--start", type=parse_time, required=True,
@@ -300,6 +341,8 @@ def main(argv=None):
     if args.command == "history":
         now = args.now or dt.datetime.now(UTC)
         write_history(Scenario(now), args.out)
+        if args.gaugings:
+            write_gaugings(Scenario(now), args.gaugings)
     else:
         if args.speed is not None and args.speed <= 0:
             parser.error("--speed must be greater than 0")
