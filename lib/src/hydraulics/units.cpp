@@ -3,16 +3,18 @@
 #include <array>
 #include <cmath>
 
+#include "stagewell/ascii_case.hpp"
+
 namespace stagewell::units {
 namespace {
 
 template <typename E>
 struct Entry {
   E unit;
-  std::string_view option;  // ASCII spelling listed in --help, accepted on input in any case
-  std::string_view symbol;  // spelling for people: text, the page, logs
-  std::string_view ucum;    // UCUM code for machine-readable output, also accepted on input
-  double factor;            // SI units (m, m^3/s, m^3) in one unit
+  std::string_view option;      // ASCII spelling listed in --help, accepted on input in any case
+  std::string_view symbol;      // spelling for people: text, the page, logs
+  std::string_view ucum;        // UCUM code for machine-readable output, also accepted on input
+  double factor;                // SI units (m, m^3/s, m^3) in one unit
   std::string_view alias = {};  // another accepted spelling (a trade abbreviation), any case
 };
 
@@ -48,22 +50,13 @@ constexpr std::array<Entry<Volume>, 7> kVolumes{{
     {Volume::million_us_gal, "Mgal", "million US gal", "10*6.[gal_us]", 1e6 * us_gallon_m3},
 }};
 
-bool same_ignoring_case(std::string_view a, std::string_view b) {
-  if (a.size() != b.size()) return false;
-  for (std::size_t i = 0; i < a.size(); ++i) {
-    const auto lower = [](char c) { return c >= 'A' && c <= 'Z' ? char(c - 'A' + 'a') : c; };
-    if (lower(a[i]) != lower(b[i])) return false;
-  }
-  return true;
-}
-
 // The option spelling or the alias in any case ("l/s", "CFS"), or the UCUM code exactly (UCUM is
 // case-sensitive). Lengths, flows and volumes each have spellings unique ignoring case.
 template <typename E, std::size_t N>
 std::optional<E> parse(const std::array<Entry<E>, N>& table, std::string_view text) {
   for (const auto& entry : table) {
-    if (same_ignoring_case(entry.option, text) || entry.ucum == text ||
-        (!entry.alias.empty() && same_ignoring_case(entry.alias, text))) {
+    if (equal_ignoring_case(entry.option, text) || entry.ucum == text ||
+        (!entry.alias.empty() && equal_ignoring_case(entry.alias, text))) {
       return entry.unit;
     }
   }

@@ -8,6 +8,7 @@
 #include <charconv>
 #include <cmath>
 
+#include "stagewell/ascii_case.hpp"
 #include "stagewell/csv.hpp"
 #include "stagewell/timestamp.hpp"
 
@@ -18,15 +19,6 @@ enum Column { kSite, kTime, kDischarge, kStage, kMethod, kUncertainty, kNote, kC
 constexpr std::array<std::string_view, kColumns> kNames = {
     "site", "time", "discharge", "stage", "method", "uncertainty", "note"};
 constexpr std::size_t kRequired = 3;  // site, time, discharge
-
-bool equal_ignoring_case(std::string_view a, std::string_view b) {
-  if (a.size() != b.size()) return false;
-  for (std::size_t i = 0; i < a.size(); ++i) {
-    const auto lower = [](char c) { return c >= 'A' && c <= 'Z' ? char(c - 'A' + 'a') : c; };
-    if (lower(a[i]) != lower(b[i])) return false;
-  }
-  return true;
-}
 
 std::string quoted(std::string_view text) {
   constexpr std::size_t kShown = 40;
