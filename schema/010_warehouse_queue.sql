@@ -11,12 +11,14 @@
 -- flag added afterwards, a recomputation) as time ranges in warehouse_changes. Every other shipped
 -- table is small and logs each changed row by trigger.
 
--- Present (one row) while the store is shipping to a warehouse: the triggers below and the
--- program's range log only record changes then. Written when the service or a command opens the
--- store with a `warehouse:` configured; deleted, with the queue, when it is opened without one (a
--- warehouse configured again later is then sent the whole record).
+-- One row once the store has been opened with a `warehouse:` configured. While `tracking` is 1 the
+-- triggers below and the program's range log record changes. Opened without a warehouse, the
+-- store stops tracking and forgets its positions and the queue (a warehouse configured again
+-- later is then sent the whole record), but keeps its store_id, so that it is still the store
+-- that feeds its plant.
 CREATE TABLE warehouse_state (
   one INTEGER PRIMARY KEY CHECK (one = 1),
+  tracking INTEGER NOT NULL DEFAULT 1,  -- 1: changes are logged; 0: nothing ships
   store_id TEXT NOT NULL,  -- random; names this store in the warehouse, so that two stores
                            -- configured with the same plant name are refused, not mixed
   warehouse_id TEXT,       -- the warehouse the positions belong to; NULL before the first
@@ -58,77 +60,77 @@ CREATE TABLE warehouse_changes (
 CREATE INDEX warehouse_changes_row ON warehouse_changes (item, site_key, day, number_key);
 
 CREATE TRIGGER warehouse_daily_insert AFTER INSERT ON daily_figures
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
   INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
 END;
 CREATE TRIGGER warehouse_daily_update AFTER UPDATE ON daily_figures
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
   INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
 END;
 CREATE TRIGGER warehouse_daily_delete AFTER DELETE ON daily_figures
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = OLD.site_key AND day = OLD.day;
   INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', OLD.site_key, OLD.day);
 END;
 
 CREATE TRIGGER warehouse_alarm_insert AFTER INSERT ON alarm_events
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
   INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
 END;
 CREATE TRIGGER warehouse_alarm_update AFTER UPDATE ON alarm_events
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
   INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
 END;
 CREATE TRIGGER warehouse_alarm_delete AFTER DELETE ON alarm_events
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = OLD.alarm_id;
   INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', OLD.alarm_id);
 END;
 
 CREATE TRIGGER warehouse_reject_insert AFTER INSERT ON rejected_lines
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = NEW.reject_id;
   INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', NEW.reject_id);
 END;
 CREATE TRIGGER warehouse_reject_delete AFTER DELETE ON rejected_lines
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = OLD.reject_id;
   INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', OLD.reject_id);
 END;
 
 CREATE TRIGGER warehouse_version_insert AFTER INSERT ON config_versions
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'version' AND number_key = NEW.config_id;
   INSERT INTO warehouse_changes (item, number_key) VALUES ('version', NEW.config_id);
 END;
 
 CREATE TRIGGER warehouse_site_insert AFTER INSERT ON site_settings
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
   INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
 END;
 CREATE TRIGGER warehouse_site_update AFTER UPDATE ON site_settings
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
   INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
 END;
 CREATE TRIGGER warehouse_site_delete AFTER DELETE ON site_settings
-WHEN EXISTS (SELECT 1 FROM warehouse_state)
+WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
 BEGIN
   DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = OLD.site_key;
   INSERT INTO warehouse_changes (item, site_key) VALUES ('site', OLD.site_key);

@@ -169,9 +169,10 @@ int run_ship(const WarehouseOptions& options) {
     }
     readings += static_cast<std::int64_t>(step->readings);
     rows += static_cast<std::int64_t>(step->rows);
-    progress.update("shipped", readings, std::max(*total, readings), "readings",
-                    fmt::format("{} other rows", rows), step->idle());
+    // The last step finds nothing: the line before it already said 100 %.
     if (step->idle()) break;
+    progress.update("shipped", readings, std::max(*total, readings), "readings",
+                    fmt::format("{} other rows", rows), readings >= *total);
     if (interrupted_by() != 0) {
       progress.end_line();
       std::cerr << "interrupted; what was shipped stays; run again to go on\n";
@@ -179,8 +180,9 @@ int run_ship(const WarehouseOptions& options) {
     }
   }
   progress.end_line();
-  std::cout << fmt::format("shipped {} readings and {} other rows to {} as plant '{}'\n", readings,
-                           rows, shipper.target(), config->warehouse->plant);
+  std::cout << fmt::format(
+      "shipped {} readings and {} other rows as plant '{}'; the warehouse: {}\n", readings, rows,
+      config->warehouse->plant, shipper.target());
   return kOk;
 }
 

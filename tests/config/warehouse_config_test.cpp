@@ -73,6 +73,17 @@ TEST_CASE("a password in the connection string is refused, in either form") {
                    "password_file"));
   CHECK(refused_at("warehouse:\n  postgresql: postgresql://writer:hunter2@db/flows\n", 9,
                    "password_file"));
+  // The refusal does not repeat the password it refuses, nor does a string that fails to parse.
+  for (const char* tail : {"warehouse:\n  postgresql: \"password=hunter2 host=db\"\n",
+                           "warehouse:\n  postgresql: postgresql://writer:hunter2@db/flows\n",
+                           "warehouse:\n  postgresql: \"host=db password=hunter2 junk\"\n"}) {
+    CAPTURE(tail);
+    const auto config = load(tail);
+    REQUIRE_FALSE(config);
+    for (const auto& error : config.error()) {
+      CHECK(error.to_string().find("hunter2") == std::string::npos);
+    }
+  }
 }
 
 TEST_CASE("a malformed connection string, schema or plant is refused with what is allowed") {

@@ -206,6 +206,17 @@ TEST_CASE("nothing is logged while the store does not ship; turning it off forge
   CHECK_FALSE(store.shipping().state()->has_value());
   CHECK(*store.shipping().lag_readings() == 3);
   CHECK(*store.shipping().lag_rows() == 0);
+  insert(store, {test::reading(canal, 1200, 0.42)});  // late, but nothing ships: not logged
+  CHECK(*store.shipping().lag_rows() == 0);
+
+  // On again: the same store (its plant stays its own), paired anew, so the whole record goes.
+  REQUIRE(store.shipping().track(true).has_value());
+  CHECK((*store.shipping().state())->store_id == id);
+  CHECK(*store.shipping().pair("w", "east"));
+  Warehouse again;
+  ship_all(store, again);
+  CHECK(again.readings == view_readings(dir.db()));
+  CHECK(again.readings.size() == 4);
 }
 
 }  // namespace

@@ -80,7 +80,8 @@ struct ShipBatch {
 class ShippingQueue : store_detail::TableHandle {
  public:
   // Turns the logging of changes on (a `warehouse:` configured), or off, forgetting every
-  // position and logged change: a warehouse configured again is then sent the whole record.
+  // position and logged change: a warehouse configured again is then sent the whole record. The
+  // store's id is made once and kept through both.
   // REQUIRES: read-write, no batch open.
   Result<void> track(bool on);
   // Empty while nothing is tracked.

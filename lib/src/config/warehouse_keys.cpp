@@ -24,8 +24,9 @@ std::optional<std::string> connection_string(const At& at, Context& cx) {
     std::string why = message != nullptr ? message : "not a connection string";
     if (message != nullptr) PQfreemem(message);
     while (!why.empty() && (why.back() == '\n' || why.back() == ' ')) why.pop_back();
-    cx.error(
-        at,
+    // Not quoted: a string that fails to parse may still hold a password.
+    cx.key_error(
+        at.mark, at.key,
         "not a PostgreSQL connection string (keyword=value pairs or a postgresql:// URI): " + why);
     return std::nullopt;
   }
@@ -38,9 +39,11 @@ std::optional<std::string> connection_string(const At& at, Context& cx) {
   }
   PQconninfoFree(parsed);
   if (has_password) {
-    cx.error(at,
-             "holds a password; put it in a file of its own and name that file in "
-             "warehouse.password_file (the connection string is logged, the password never is)");
+    // Not quoted either: the message would show the password it refuses.
+    cx.key_error(at.mark, at.key,
+                 "holds a password; put it in a file of its own and name that file in "
+                 "warehouse.password_file (the connection string is logged, the password never "
+                 "is)");
     return std::nullopt;
   }
   return value;

@@ -152,7 +152,8 @@ Result<void> store_detail::log_changed_readings(Core& core) {
   std::sort(changed.begin(), changed.end());
   auto insert = core.db().cached(
       "INSERT INTO warehouse_changes (item, site_key, from_ms, to_ms) "
-      "SELECT 'readings', ?1, ?2, ?3 WHERE EXISTS (SELECT 1 FROM warehouse_state)");
+      "SELECT 'readings', ?1, ?2, ?3 "
+      "WHERE EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)");
   if (!insert) return std::unexpected(insert.error());
   auto log = [&](std::int64_t site, std::int64_t from_ms, std::int64_t to_ms) -> Result<void> {
     auto& s = **insert;
@@ -182,12 +183,18 @@ Result<void> ShippingQueue::track(bool on) {
   return store_detail::in_own_batch(*core_, "record shipping", [&](WriteBatch&) -> Result<void> {
     auto& db = core_->db();
     if (!on) {
-      if (auto done = db.exec("DELETE FROM warehouse_state"); !done) return done;
+      // The store id stays: this is still the store that feeds its plant.
+      if (auto done = db.exec("UPDATE warehouse_state SET tracking = 0, warehouse_id = NULL, "
+                              "plant = NULL, last_shipped_ms = NULL");
+          !done) {
+        return done;
+      }
       if (auto done = db.exec("DELETE FROM warehouse_positions"); !done) return done;
       return db.exec("DELETE FROM warehouse_changes");
     }
     auto insert = db.cached(
-        "INSERT INTO warehouse_state (one, store_id) VALUES (1, ?1) ON CONFLICT (one) DO NOTHING");
+        "INSERT INTO warehouse_state (one, store_id) VALUES (1, ?1) "
+        "ON CONFLICT (one) DO UPDATE SET tracking = 1");
     if (!insert) return std::unexpected(insert.error());
     (*insert)->bind(1, random_id());
     return (*insert)->run();
@@ -196,7 +203,8 @@ Result<void> ShippingQueue::track(bool on) {
 
 Result<std::optional<ShippingState>> ShippingQueue::state() {
   auto select = core_->db().cached(
-      "SELECT store_id, warehouse_id, plant, last_shipped_ms FROM warehouse_state");
+      "SELECT store_id, warehouse_id, plant, last_shipped_ms FROM warehouse_state "
+      "WHERE tracking = 1");
   if (!select) return std::unexpected(select.error());
   return first_row(**select, [](const auto& s) {
     auto text = [&](int column) {
@@ -413,7 +421,7 @@ Result<void> ShippingQueue::shipped(const ShipBatch& batch, std::int64_t shipped
 
 Result<std::int64_t> ShippingQueue::lag_readings() {
   auto select = core_->db().cached(
-      "SELECT CASE WHEN NOT EXISTS (SELECT 1 FROM warehouse_state) "
+      "SELECT CASE WHEN NOT EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1) "
       "THEN (SELECT count(*) FROM readings) ELSE "
       "coalesce((SELECT sum((SELECT count(*) FROM readings AS r WHERE r.site_key = s.site_key "
       "AND r.time_ms > coalesce(p.shipped_to_ms, -9223372036854775807 - 1))) "
