@@ -37,7 +37,7 @@ if(STAGEWELL_DPKG_SHLIBDEPS)
   set(CPACK_DEBIAN_PACKAGE_SHLIBDEPS ON)
 else()
   set(CPACK_DEBIAN_PACKAGE_DEPENDS
-      "libc6, libgcc-s1, libstdc++6, libsqlite3-0, libfmt9, libspdlog1.10-fmt9, libyaml-cpp0.7, libcctz2")
+      "libc6, libgcc-s1, libstdc++6, libsqlite3-0, libfmt9, libspdlog1.10-fmt9, libyaml-cpp0.7, libcctz2, libpq5")
 endif()
 set(CPACK_DEBIAN_PACKAGE_RECOMMENDS "systemd")
 set(CPACK_DEBIAN_PACKAGE_SUGGESTS "sqlite3")

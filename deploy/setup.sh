@@ -13,7 +13,7 @@ build_packages=(
   libcli11-dev            # command-line parsing
   nlohmann-json3-dev      # JSON output
   libcctz-dev             # IANA time zones
-  libpq-dev               # PostgreSQL's client library: shipping to the warehouse (docs/warehouse.md)
+  libpq-dev               # PostgreSQL's client library: shipping to the warehouse
   python3                 # the demo's readings (deploy/make_demo_data.py)
 )
 test_packages=(
@@ -26,7 +26,7 @@ test_packages=(
   clang-16 libclang-rt-16-dev    # the checking build: sanitizers and libFuzzer (deploy/test.sh)
   dpkg-dev                       # dpkg-shlibdeps: the Debian package's Depends (package_test)
   groff-base python3-yaml        # package_test: renders the manual pages, reads demo.yaml
-  postgresql python3-psycopg2    # the warehouse tests: a throwaway server, an independent reader
+  postgresql python3-psycopg2    # a real warehouse server for the warehouse tests, and a client
 )
 # Node.js and npm install the UCUM reference library that checks the unit codes
 # (tests/tools/ucum); Debian's packages unless the machine has them already from elsewhere.

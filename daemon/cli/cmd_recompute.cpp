@@ -71,6 +71,12 @@ int run_recompute(const RecomputeOptions& options) {
               << store.error().message << '\n';
     return kInvalidInput;
   }
+  // A store that ships logs what the recomputation changes, to send it again.
+  if (auto tracked = store->shipping().track(config->warehouse.has_value()); !tracked) {
+    std::cerr << "cannot open the database " << config->database.string() << ": "
+              << tracked.error().message << '\n';
+    return kInvalidInput;
+  }
   auto planned = Recomputation::plan(*store, *config, options.site, system_now_ms(), *from, *to);
   if (!planned) {
     std::cerr << planned.error().message << '\n';

@@ -22,6 +22,7 @@ void add_backup_command(CLI::App& program, Action& chosen);
 void add_export_command(CLI::App& program, Action& chosen);
 void add_units_command(CLI::App& program, Action& chosen);
 void add_gaugings_command(CLI::App& program, Action& chosen);
+void add_warehouse_command(CLI::App& program, Action& chosen);
 void add_calibrate_command(CLI::App& program, Action& chosen);
 
 }  // namespace stagewell::cli

@@ -30,6 +30,7 @@ int main(int argc, char** argv) {
   add_export_command(program, chosen);
   add_units_command(program, chosen);
   add_gaugings_command(program, chosen);
+  add_warehouse_command(program, chosen);
   add_calibrate_command(program, chosen);
 
   try {

@@ -51,7 +51,23 @@ Service::Service(boost::asio::io_context& io, std::string config_path, Logging& 
 
 Service::~Service() {
   close_network();
-  writer_.reset();  // joins the writer's thread
+  shipping_.reset();  // joins the shipping thread
+  writer_.reset();    // joins the writer's thread
+}
+
+void Service::start_shipping() {
+  shipping_.reset();
+  if (!config_ || !config_->warehouse) return;
+  shipping_ = std::make_unique<Shipping>(*config_, shipping_board_);
+}
+
+LiveFiguresSource Service::live_figures() const {
+  const bool shipping = config_ && config_->warehouse;
+  return [writer = writer_->live(), board = shipping ? shipping_board_ : nullptr] {
+    LiveFigures figures = writer();
+    if (board) figures.warehouse = board->get();
+    return figures;
+  };
 }
 
 bool Service::start() {
@@ -100,6 +116,7 @@ void Service::opened(const Config& config, Result<int> schema_version) {
     return;
   }
   log_started(*schema_version);
+  start_shipping();
   readiness_.ready(summary());
   if (reload_waiting_) {
     reload_waiting_ = false;
@@ -137,7 +154,7 @@ bool Service::open_network() {
   tcp_ = std::move(*tcp);
   if (config_->http) {
     // The readers open their read-only connections on their own threads, at the first request.
-    auto readers = std::make_unique<HttpReaders>(io_, *config_, writer_->live());
+    auto readers = std::make_unique<HttpReaders>(io_, *config_, live_figures());
     auto server = HttpServer::open(io_, *config_->http, std::move(readers));
     if (!server) {
       spdlog::error("{}", server.error().message);
@@ -203,6 +220,7 @@ void Service::shut_down() {
   stopping_ = true;
   readiness_.stopping("stopping: committing what is in hand");
   close_network();
+  shipping_.reset();  // what it had not committed in the warehouse is shipped next time
   // A writer waiting for another process's lock gives up after a short while: the stop must not
   // hang on something outside the service.
   stop_timer_.expires_after(kStopLockWait);
@@ -261,6 +279,7 @@ void Service::reload() {
   const LogSpec previous_log = config_->log;
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
   close_network();
+  shipping_.reset();  // the reload may turn shipping off, or point it elsewhere
   writer_->reload(
       *config, [this, config = *config, new_lock, previous_log](const Writer::Reloaded& outcome) {
         reloaded(config, new_lock, previous_log, outcome);
@@ -296,6 +315,7 @@ void Service::reloaded(Config config, std::shared_ptr<std::optional<ServiceLock>
     return;
   }
   if (outcome.applied) log_started(outcome.schema_version);
+  start_shipping();  // the new configuration's warehouse, or the running one's again
   spdlog::info("reloaded; totals before the reload: {}", outcome.totals);
   if (outcome.applied) {
     readiness_.ready(summary());

@@ -25,6 +25,7 @@
 #include "http_server.hpp"
 #include "logging.hpp"
 #include "readiness.hpp"
+#include "shipping.hpp"
 #include "stagewell/config.hpp"
 #include "stagewell/service_lock.hpp"
 #include "tcp_listener.hpp"
@@ -79,6 +80,12 @@ class Service {
   std::optional<ServiceLock> lock_;  // one service per database (service_lock.hpp)
   std::optional<Config> config_;     // the running configuration, once the writer has opened it
   std::unique_ptr<Writer> writer_;
+  // Shipping to the warehouse, when one is configured: started once the database is open, again
+  // after each reload, stopped first when the service stops.
+  std::shared_ptr<ShippingBoard> shipping_board_ = std::make_shared<ShippingBoard>();
+  std::unique_ptr<Shipping> shipping_;
+  void start_shipping();
+  LiveFiguresSource live_figures() const;
   std::unique_ptr<TcpSources> tcp_;
   std::shared_ptr<HttpServer> http_;
   bool reloading_ = false;

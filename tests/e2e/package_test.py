@@ -74,11 +74,16 @@ def package_of(library):
 
 
 def linked_packages(program):
-    """The packages of the shared libraries a program links (ldd), the loader and vdso aside."""
+    """The packages of the shared libraries a program links itself (its DT_NEEDED entries, read
+    with readelf; ldd resolves them to files), the loader and vdso aside. Libraries those pull in
+    (libpq's Kerberos and TLS) are their own packages' dependencies, as dpkg-shlibdeps(1) has it."""
+    needed = set(re.findall(r"\(NEEDED\)\s+Shared library: \[([^\]]+)\]",
+                            run(["readelf", "-d", program]).stdout))
     packages = set()
     for line in run(["ldd", program]).stdout.splitlines():
-        match = re.search(r"=> (/\S+)", line)
-        if match:
+        match = re.search(r"^\s*(\S+) => (/\S+)", line)
+        if match and match.group(1) in needed:
+            match = re.search(r"=> (/\S+)", line)
             package = package_of(match.group(1))
             if package:
                 packages.add(package)
@@ -121,7 +126,7 @@ def main():
     built_stagewell = os.path.join(os.path.abspath(args.bin_dir), "stagewell")
     built_stagewelld = os.path.join(os.path.abspath(args.bin_dir), "stagewelld")
 
-    missing = [tool for tool in ("cpack", "dpkg-deb", "dpkg", "ldd", "groff", "bash")
+    missing = [tool for tool in ("cpack", "dpkg-deb", "dpkg", "ldd", "readelf", "groff", "bash")
                if shutil.which(tool) is None]
     if yaml is None:
         missing.append("python3-yaml")

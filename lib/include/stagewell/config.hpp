@@ -210,6 +210,15 @@ struct HttpSpec {
   double header_timeout_s = 2.0;        // begun: its header must arrive whole within this
 };
 
+// `warehouse:` where the service ships its record: one PostgreSQL database that several services
+// (plants) feed (docs/warehouse.md). Absent: nothing is shipped.
+struct WarehouseSpec {
+  std::string postgresql;  // a libpq connection string (keyword=value or URI), no password in it
+  std::optional<std::filesystem::path> password_file;  // absolute; its first line is the password
+  std::string schema = "stagewell";  // the PostgreSQL schema: [a-z_][a-z0-9_]{0,62}
+  std::string plant;                 // this service's name in the warehouse; the host name if unset
+};
+
 struct Config {
   std::filesystem::path file;  // the file it was read from (absolute), or parse_config's name
   units::System units = units::System::metric;
@@ -220,6 +229,7 @@ struct Config {
   LogSpec log;
   DailySpec daily;
   std::optional<HttpSpec> http;  // http: empty when `http:` is not written
+  std::optional<WarehouseSpec> warehouse;  // empty when `warehouse:` is not written
 
   const SiteConfig* find_site(std::string_view id) const;  // nullptr when unknown
 };

@@ -34,6 +34,14 @@ struct HttpAnswer {
   std::string body;
 };
 
+// How shipping to the warehouse goes (docs/warehouse.md), when one is configured.
+struct WarehouseFigures {
+  bool connected = false;         // the last attempt reached the warehouse
+  std::int64_t lag_readings = 0;  // readings not shipped yet (an upper bound)
+  std::optional<std::int64_t> last_shipped_ms;  // the last shipment the warehouse committed
+  std::int64_t shipped_readings = 0;            // readings sent since the service started
+};
+
 // Figures that live in the service, not in the database: the ingest counters since start.
 struct LiveFigures {
   IngestCounts counts;
@@ -41,6 +49,7 @@ struct LiveFigures {
   // While the database cannot be written (a full disk, a damaged file): since when (ms since
   // epoch, UTC); 0 when writing works.
   std::int64_t store_failing_since_ms = 0;
+  std::optional<WarehouseFigures> warehouse;  // empty when no warehouse is configured
 };
 using LiveFiguresSource = std::function<LiveFigures()>;
 

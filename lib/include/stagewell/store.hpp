@@ -34,6 +34,7 @@
 
 #include "stagewell/alarm_table.hpp"
 #include "stagewell/daily_table.hpp"
+#include "stagewell/shipping_queue.hpp"
 #include "stagewell/gaugings_table.hpp"
 #include "stagewell/readings_table.hpp"
 #include "stagewell/result.hpp"
@@ -107,6 +108,7 @@ class Store {
   AlarmTable alarms();
   RecomputationRunsTable recomputation_runs();
   GaugingsTable gaugings();
+  ShippingQueue shipping();
 
   // Whether stored readings may have changed since `seen` was taken — committed by another
   // connection (another process), or rewritten through this store (ReadingsTable::rewrite) — and

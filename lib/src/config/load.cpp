@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "config/http_keys.hpp"
+#include "config/warehouse_keys.hpp"
 #include "config/key_table.hpp"
 #include "config/readers.hpp"
 #include "config/value_readers.hpp"
@@ -64,6 +65,7 @@ const std::vector<Key<Config>>& top_keys() {
       {"sources", defaults("[]"), read_sources},
       {"daily", defaults("{}"), read_daily},
       {"http", optional(), read_http},  // http: no server unless written
+      {"warehouse", optional(), read_warehouse},  // warehouse: nothing shipped unless written
   };
   return keys;
 }

@@ -226,6 +226,10 @@ Result<std::unique_ptr<Ingestor>> Ingestor::open(const Config& config,
     }
     state->sites.emplace(site_config.id, std::move(site));
   }
+  // Before the site details are written: their change is the first the warehouse is told of.
+  if (auto tracked = state->store.shipping().track(state->config.warehouse.has_value()); !tracked) {
+    return std::unexpected(tracked.error());
+  }
   if (auto described = state->store.sites().describe(site_settings(state->config, state->sites));
       !described) {
     return std::unexpected(described.error());

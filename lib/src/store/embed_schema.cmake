@@ -1,8 +1,16 @@
 # Writes a C++ source that holds schema/NNN_name.sql as raw string literals, so that the program
 # never reads schema/ at run time. Run by lib/CMakeLists.txt in script mode:
 #   cmake -DSCHEMA_FILES=a.sql|b.sql -DOUTPUT=migrations.cpp -P embed_schema.cmake
+# Optional: -DHEADER=x/migrations.hpp -DNAMESPACE=stagewell::x_detail for another set of migrations
+# (the warehouse's, schema/warehouse/), declared alike in that header.
 # The files must be numbered 001, 002, ... without gaps: a gap or a repeat fails the build.
 
+if(NOT DEFINED HEADER)
+  set(HEADER "store/migrations.hpp")
+endif()
+if(NOT DEFINED NAMESPACE)
+  set(NAMESPACE "stagewell::store_detail")
+endif()
 string(REPLACE "|" ";" files "${SCHEMA_FILES}")
 list(SORT files)
 
@@ -27,13 +35,13 @@ foreach(file ${files})
 endforeach()
 
 if(expected EQUAL 1)
-  message(FATAL_ERROR "no schema/*.sql migrations found")
+  message(FATAL_ERROR "no migrations found in ${SCHEMA_FILES}")
 endif()
 
 set(content "// Generated from schema/*.sql by lib/src/store/embed_schema.cmake. Do not edit.
-#include \"store/migrations.hpp\"
+#include \"${HEADER}\"
 
-namespace stagewell::store_detail {
+namespace ${NAMESPACE} {
 namespace {
 
 const Migration kMigrations[] = {
@@ -43,7 +51,7 @@ ${entries}};
 
 std::span<const Migration> migrations() { return kMigrations; }
 
-}  // namespace stagewell::store_detail
+}  // namespace ${NAMESPACE}
 ")
 
 file(WRITE ${OUTPUT} "${content}")

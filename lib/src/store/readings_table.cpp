@@ -15,6 +15,7 @@ namespace stagewell {
 
 using store_detail::each_row;
 using store_detail::first_row;
+using store_detail::single_count;
 using store_detail::flags_column;
 using store_detail::row_limit;
 
@@ -53,11 +54,6 @@ sqlite::Statement& bind_range(sqlite::Statement& s, SiteKey site, std::int64_t f
   return s;
 }
 
-Result<std::int64_t> single_count(sqlite::Statement& statement) {
-  auto count = first_row(statement, [](const auto& s) { return s.column_int64(0); });
-  if (!count) return std::unexpected(count.error());
-  return count->value_or(0);
-}
 
 // Two numbers that are both NULL when there is nothing to span (min and max of no rows).
 Result<std::optional<TimeSpan>> time_span(sqlite::Statement& statement) {
@@ -230,7 +226,9 @@ Result<void> ReadingsTable::rewrite(WriteBatch& batch, SiteKey site, std::int64_
         store_detail::bind_optional(s, 6, store_detail::band_bp(values.band));
         store_detail::bind_optional(
             s, 7, store_detail::jones_bp(values.discharge, values.discharge_jones));
-        return s.run();
+        if (auto done = s.run(); !done) return done;
+        if (connection.changes() > 0) core_->changed_reading(site, time_ms);
+        return {};
       });
 }
 
@@ -241,6 +239,7 @@ Result<void> ReadingsTable::rewrite_flags(WriteBatch& batch, SiteKey site, std::
         store_detail::BatchAccess::rewrote_readings(batch);
         auto updated = store_detail::or_flags(connection, site, time_ms, flags);
         if (!updated) return std::unexpected(updated.error());
+        if (*updated) core_->changed_reading(site, time_ms);
         return {};
       });
 }

@@ -35,6 +35,13 @@ auto first_row(sqlite::Statement& statement, Read&& read)
   return std::optional<Row>(read(static_cast<const sqlite::Statement&>(statement)));
 }
 
+// The one integer a count(*) gives; 0 when there is no row.
+inline Result<std::int64_t> single_count(sqlite::Statement& statement) {
+  auto count = first_row(statement, [](const auto& s) { return s.column_int64(0); });
+  if (!count) return std::unexpected(count.error());
+  return count->value_or(0);
+}
+
 // A column that may be NULL.
 inline std::optional<std::int64_t> optional_int64(const sqlite::Statement& s, int column) {
   if (s.column_is_null(column)) return std::nullopt;

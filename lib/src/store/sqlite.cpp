@@ -179,6 +179,21 @@ bool Statement::column_is_null(int column) const {
   return sqlite3_column_type(statement_, column) == SQLITE_NULL;
 }
 
+int Statement::column_count() const { return sqlite3_column_count(statement_); }
+
+std::optional<std::string> Statement::column_as_text(int column) const {
+  switch (sqlite3_column_type(statement_, column)) {
+    case SQLITE_NULL:
+      return std::nullopt;
+    case SQLITE_INTEGER:
+      return std::to_string(column_int64(column));
+    case SQLITE_FLOAT:
+      return fmt::format("{}", column_double(column));  // shortest round trip
+    default:
+      return column_text(column);
+  }
+}
+
 std::string_view Statement::sql() const {
   const char* text = sqlite3_sql(statement_);
   return text == nullptr ? std::string_view{} : std::string_view{text};

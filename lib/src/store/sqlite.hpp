@@ -89,6 +89,10 @@ class Statement {
   std::optional<double> column_optional_double(int column) const;  // empty when NULL
   std::string column_text(int column) const;
   bool column_is_null(int column) const;
+  int column_count() const;
+  // The column as text, whatever its type: an integer in decimal, a REAL as the shortest text that
+  // reads back as the same double, text and blobs as stored; empty when NULL.
+  std::optional<std::string> column_as_text(int column) const;
 
   std::string_view sql() const;
 

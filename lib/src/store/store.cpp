@@ -206,6 +206,7 @@ DailyTable Store::daily() { return DailyTable(core_.get()); }
 AlarmTable Store::alarms() { return AlarmTable(core_.get()); }
 RecomputationRunsTable Store::recomputation_runs() { return RecomputationRunsTable(core_.get()); }
 GaugingsTable Store::gaugings() { return GaugingsTable(core_.get()); }
+ShippingQueue Store::shipping() { return ShippingQueue(core_.get()); }
 
 Result<bool> Store::stored_readings_changed(ReadingsMark& seen) {
   // data_version changes when another connection commits; this store's own commits, the rewrites

@@ -41,6 +41,14 @@ struct Core final : sqlite::HeldWrites {
   bool held_failed = false;
   // Batches committed that rewrote stored readings (Store::stored_readings_changed).
   std::int64_t readings_rewrites = 0;
+  // (site_key, time_ms) of the readings the open batch changed behind their site's latest stored
+  // one: late inserts, flags added, recomputed values. Logged as time ranges for the warehouse
+  // when the batch commits (shipping_queue.cpp), unless nothing ships.
+  std::vector<std::pair<std::int64_t, std::int64_t>> changed_behind;
+
+  void changed_reading(SiteKey site, std::int64_t time_ms) {
+    changed_behind.emplace_back(site.value, time_ms);
+  }
 
   sqlite::Connection& db() { return *connection; }
 
@@ -63,6 +71,10 @@ struct Core final : sqlite::HeldWrites {
 // (readings_table.cpp).
 Result<std::optional<double>> stored_stage(sqlite::Connection& connection, SiteKey site,
                                            std::int64_t time_ms);
+// Logs the batch's changed_behind readings for the warehouse, as ranges (shipping_queue.cpp).
+// Writes nothing while the store does not ship.
+Result<void> log_changed_readings(Core& core);
+
 // ORs `flags` into a stored reading; false when there is none at that site and time.
 Result<bool> or_flags(sqlite::Connection& connection, SiteKey site, std::int64_t time_ms,
                       Flags flags);

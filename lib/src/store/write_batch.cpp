@@ -143,7 +143,11 @@ Result<InsertResult> store_detail::Core::insert(const StoredReading& reading) {
     if (auto written = connection->write_held(); !written) {
       return std::unexpected(written.error());
     }
-    return stagewell::insert_reading(*connection, insert_reading, reading);
+    auto inserted = stagewell::insert_reading(*connection, insert_reading, reading);
+    if (inserted && inserted->outcome == InsertOutcome::stored) {
+      changed_reading(reading.site, reading.time_ms);
+    }
+    return inserted;
   }
   // Later than everything stored for its site: certainly new, and held to be inserted with
   // others. The outcome is known now; a failure to write it fails the statement that tried (this
@@ -199,6 +203,7 @@ Result<void> store_detail::Core::write() {
 
 void store_detail::Core::end_of_batch() {
   held_readings.clear();
+  changed_behind.clear();
   latest_ms.clear();
   held_failed = false;
 }
@@ -252,7 +257,9 @@ Result<InsertResult> WriteBatch::insert(const StoredReading& reading) {
 
 Result<bool> WriteBatch::add_flags(SiteKey site, std::int64_t time_ms, Flags flags) {
   if (auto ok = check_usable(); !ok) return std::unexpected(ok.error());
-  return spoil_on_error(store_detail::or_flags(*store_->connection, site, time_ms, flags));
+  auto updated = store_detail::or_flags(*store_->connection, site, time_ms, flags);
+  if (updated && *updated) store_->changed_reading(site, time_ms);
+  return spoil_on_error(std::move(updated));
 }
 
 Result<void> WriteBatch::add_reject(const Reject& reject) {
@@ -310,6 +317,10 @@ Result<void> WriteBatch::commit() {
     roll_back();
     return fail(ErrorKind::invalid_argument,
                 "a write batch in which a call failed cannot be committed; it was rolled back");
+  }
+  if (auto logged = store_detail::log_changed_readings(*store_); !logged) {
+    roll_back();
+    return logged;
   }
   // A COMMIT that meets a lock waits inside its step (StoreOptions); one that fails for good is
   // rolled back, leaving nothing of the batch behind.

@@ -261,6 +261,25 @@ Result<HttpAnswer> metrics_answer(StatusApi::State& state, std::string_view acce
                      ? static_cast<double>(now_ms - live.store_failing_since_ms) / 1000.0
                      : 0.0);
 
+  if (live.warehouse) {
+    const WarehouseFigures& warehouse = *live.warehouse;
+    out.family("stagewell_warehouse_connected", "gauge",
+               "1 while the service reaches the warehouse it ships to, else 0.");
+    out.sample("", warehouse.connected ? 1.0 : 0.0);
+    out.family("stagewell_warehouse_lag_readings", "gauge",
+               "Readings stored here and not yet shipped to the warehouse (at most).");
+    out.sample("", static_cast<double>(warehouse.lag_readings));
+    out.family("stagewell_warehouse_shipped_readings", "counter",
+               "Readings shipped to the warehouse since the service started.");
+    out.sample("", static_cast<double>(warehouse.shipped_readings));
+    if (warehouse.last_shipped_ms) {
+      out.family("stagewell_warehouse_last_shipped_timestamp_seconds", "gauge",
+                 "When the warehouse last committed a shipment from here (Unix time).",
+                 "seconds");
+      out.sample("", static_cast<double>(*warehouse.last_shipped_ms) / 1000.0);
+    }
+  }
+
   out.family("stagewell_start_time_seconds", "gauge", "When the service started (Unix time).",
              "seconds");
   out.sample("", static_cast<double>(live.started_ms) / 1000.0);
