@@ -23,7 +23,6 @@ import socket
 import subprocess
 import sys
 import tempfile
-import time
 
 import daemon_support as ds
 
@@ -59,9 +58,12 @@ class Cluster:
 
     `start()` the first time runs initdb, starts the server, and creates the writer role (with
     `writer_password`) owning the database DATABASE; later calls only start the server again.
-    `stop()` is a fast shutdown (open sessions are ended, what is committed stays)."""
+    `stop()` is a fast shutdown (open sessions are ended, what is committed stays).
+    `durable=False` (the tests) runs the server with fsync=off: a test's cluster never outlives a
+    crash of the machine, and syncing would only slow it; a benchmark passes True."""
 
-    def __init__(self):
+    def __init__(self, durable=False):
+        self.durable = durable
         if psycopg2 is None:
             skip("python3-psycopg2 is not installed (deploy/setup.sh --with-tests installs it)")
         for tool in ("initdb", "pg_ctl", "postgres"):
@@ -114,7 +116,9 @@ class Cluster:
         if not self.initialised:
             self._initdb()
         options = (f"-k {self.socket_dir} -p {self.port} -c listen_addresses='' "
-                   "-c fsync=off -c max_connections=40")
+                   "-c max_connections=40")
+        if not self.durable:
+            options += " -c fsync=off"
         done = self._run("pg_ctl", "start", "-D", self.data, "-l", self.log_path, "-w",
                          "-t", str(timeout_s), "-o", options, timeout=timeout_s + 30)
         if done.returncode != 0:
@@ -297,15 +301,28 @@ def _plain(value):
     return value
 
 
+def as_warehouse_text(raw):
+    """A rejected line's raw bytes as the warehouse keeps them: PostgreSQL text holds only UTF-8
+    without NUL, so each byte sequence that is not UTF-8, and each NUL, becomes U+FFFD there
+    (schema/warehouse/001_initial.sql, rejected_lines.raw; Python's "replace" error handler
+    substitutes one U+FFFD per maximal invalid subpart, as Unicode 15 section 3.9 recommends)."""
+    return raw.decode("utf-8", errors="replace").replace("\x00", "\ufffd").encode()
+
+
 def local_view(db_path, view):
-    """(column names, rows as tuples of plain values) of one local SQLite view."""
+    """(column names, rows as tuples of plain values) of one local SQLite view. The rejects'
+    raw lines are taken as the warehouse keeps them (as_warehouse_text)."""
     import sqlite3
     con = sqlite3.connect(f"file:{db_path}?mode=ro", uri=True, timeout=30)
     try:
         con.text_factory = bytes
         cur = con.execute(f"SELECT * FROM {view}")
         names = [d[0] for d in cur.description]
-        return names, [tuple(_plain(v) for v in row) for row in cur.fetchall()]
+        rows = [tuple(_plain(v) for v in row) for row in cur.fetchall()]
+        if view == "rejects":
+            raw = names.index("raw")
+            rows = [row[:raw] + (as_warehouse_text(row[raw]),) + row[raw + 1:] for row in rows]
+        return names, rows
     finally:
         con.close()
 
