@@ -226,7 +226,9 @@ def main():
                 done.stderr + done.stdout)
         secret = "n0t-a-real-secret-8271"
         for form, conninfo in (
-                ("keyword", f"{pg.conninfo()} password={secret}"),
+                # The password first: an error that shows only the start of a long value must
+                # not show it either.
+                ("keyword", f"password={secret} {pg.conninfo()}"),
                 ("URI", f"postgresql://{ws.WRITER}:{secret}@/{ws.DATABASE}"
                         f"?host={pg.socket_dir}&port={pg.port}")):
             bad = os.path.join(root, f"password-in-{form}.yaml")
@@ -511,6 +513,22 @@ def main():
                 r.check("analyst cannot change the views", False, "DELETE accepted")
             except psycopg2.Error:
                 r.check("analyst cannot change the views", True)
+
+        # ---- `warehouse:` taken out and put back: the store forgets its queue (schema/010), and
+        # is then sent whole again, under its own plant name -----------------------------------
+        pg.write_password_file(os.path.join(lower.dir, "warehouse.password"))
+        no_warehouse = os.path.join(lower.dir, "no-warehouse.yaml")
+        ds.write(no_warehouse, base_config("db/flows.db") + LOWER_SITES)
+        done = ws.stagewell(stagewell, "ingest", "--config", no_warehouse, "--quiet",
+                            lower.file_path(2))
+        r.check("ingest with a configuration without warehouse: (nothing new) exit 0",
+                done.returncode == 0, done.stderr[-500:])
+        done = ws.stagewell(stagewell, "warehouse", "ship", "--config", lower.config)
+        r.check("warehouse put back: the one-shot ship sends the record again under the same "
+                "plant name", done.returncode == 0 and f"shipped {lower.readings()} readings"
+                in done.stdout, f"exit {done.returncode}: {done.stdout[-300:]} "
+                f"{done.stderr[-600:]}")
+        compare(r, "warehouse taken out and put back", lower)
     return r.finish()
 
 
