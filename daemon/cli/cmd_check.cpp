@@ -147,6 +147,12 @@ int run_check(const std::string& config_path, bool database) {
   std::cout << "  database   " << config->database.string() << '\n';
   std::cout << "  time zone  " << config->timezone << " (the local day of daily figures)\n";
   std::cout << "  sources    " << config->sources.size() << '\n';
+  if (config->warehouse) {
+    std::cout << fmt::format("  warehouse  {} (schema {}) as plant {}; `stagewell warehouse "
+                             "check` connects\n",
+                             config->warehouse->postgresql, config->warehouse->schema,
+                             config->warehouse->plant);
+  }
   for (const auto& site : config->sites) {
     const auto channel = make_channel(site, system);
     const double top = channel->section().top_depth();

@@ -51,12 +51,21 @@ Service::Service(boost::asio::io_context& io, std::string config_path, Logging& 
 
 Service::~Service() {
   close_network();
-  shipping_.reset();  // joins the shipping thread
-  writer_.reset();    // joins the writer's thread
+  stop_shipping();
+  stopped_shipping_.clear();  // joins the shipping threads
+  writer_.reset();            // joins the writer's thread
+}
+
+void Service::stop_shipping() {
+  if (!shipping_) return;
+  shipping_->request_stop();
+  stopped_shipping_.push_back(std::move(shipping_));
+  // Those that have ended are joined at once; the others when the service ends.
+  std::erase_if(stopped_shipping_, [](const auto& s) { return s->finished(); });
 }
 
 void Service::start_shipping() {
-  shipping_.reset();
+  stop_shipping();
   if (!config_ || !config_->warehouse) return;
   shipping_ = std::make_unique<Shipping>(*config_, shipping_board_);
 }
@@ -220,7 +229,7 @@ void Service::shut_down() {
   stopping_ = true;
   readiness_.stopping("stopping: committing what is in hand");
   close_network();
-  shipping_.reset();  // what it had not committed in the warehouse is shipped next time
+  stop_shipping();  // what it had not committed in the warehouse is shipped next time
   // A writer waiting for another process's lock gives up after a short while: the stop must not
   // hang on something outside the service.
   stop_timer_.expires_after(kStopLockWait);
@@ -279,7 +288,7 @@ void Service::reload() {
   const LogSpec previous_log = config_->log;
   if (auto problem = logging_.apply(config->log)) spdlog::warn("{}", *problem);
   close_network();
-  shipping_.reset();  // the reload may turn shipping off, or point it elsewhere
+  stop_shipping();  // the reload may turn shipping off, or point it elsewhere
   writer_->reload(
       *config, [this, config = *config, new_lock, previous_log](const Writer::Reloaded& outcome) {
         reloaded(config, new_lock, previous_log, outcome);
@@ -287,8 +296,8 @@ void Service::reload() {
 }
 
 void Service::reload_refused(std::string_view why) {
-  readiness_.ready(fmt::format("{}; last reload refused ({}), the running configuration kept",
-                               summary(), why));
+  readiness_.ready(
+      fmt::format("{}; last reload refused ({}), the running configuration kept", summary(), why));
 }
 
 void Service::reloaded(Config config, std::shared_ptr<std::optional<ServiceLock>> new_lock,

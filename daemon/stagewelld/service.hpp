@@ -21,6 +21,7 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <vector>
 
 #include "http_server.hpp"
 #include "logging.hpp"
@@ -71,8 +72,8 @@ class Service {
   std::string config_path_;
   Logging& logging_;
   boost::asio::signal_set signals_;
-  boost::asio::steady_timer log_timer_;   // notices a rotated log file
-  boost::asio::steady_timer stop_timer_;  // the stop's deadline for waiting on a lock
+  boost::asio::steady_timer log_timer_;       // notices a rotated log file
+  boost::asio::steady_timer stop_timer_;      // the stop's deadline for waiting on a lock
   boost::asio::steady_timer watchdog_timer_;  // systemd's watchdog pings (readiness.hpp)
   Readiness readiness_ = Readiness::from_environment();
   // Keeps run() going while the writer works and the network side has nothing pending.
@@ -84,6 +85,10 @@ class Service {
   // after each reload, stopped first when the service stops.
   std::shared_ptr<ShippingBoard> shipping_board_ = std::make_shared<ShippingBoard>();
   std::unique_ptr<Shipping> shipping_;
+  // Shippings asked to stop (at a reload or the stop), joined when the service ends: the loop
+  // never waits for one.
+  std::vector<std::unique_ptr<Shipping>> stopped_shipping_;
+  void stop_shipping();
   void start_shipping();
   LiveFiguresSource live_figures() const;
   std::unique_ptr<TcpSources> tcp_;

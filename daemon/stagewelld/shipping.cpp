@@ -25,18 +25,25 @@ constexpr auto kRecount = seconds(10);        // while behind: the lag counted a
 
 Shipping::Shipping(const Config& config, std::shared_ptr<ShippingBoard> board)
     : config_(config), board_(std::move(board)) {
-  thread_ = std::thread([this] { run(); });
+  thread_ = std::thread([this] {
+    run();
+    finished_ = true;
+  });
 }
 
 Shipping::~Shipping() { stop(); }
 
-void Shipping::stop() {
+void Shipping::request_stop() {
   {
     std::lock_guard lock(mutex_);
     stopping_ = true;
     if (cancel_) cancel_();
   }
   wake_.notify_all();
+}
+
+void Shipping::stop() {
+  request_stop();
   if (thread_.joinable()) thread_.join();
 }
 
@@ -101,7 +108,11 @@ void Shipping::run() {
             step.error().message, kLastRetry.count());
         failing = step.error().message;
       }
-      board_->update([](WarehouseFigures& f) { f.connected = false; });
+      const auto waiting = lag();  // from the database: known without the warehouse
+      board_->update([&](WarehouseFigures& f) {
+        f.connected = false;
+        f.lag_readings = waiting;
+      });
       pause(retry);
       retry = std::min(retry * 2, std::chrono::duration_cast<milliseconds>(kLastRetry));
       continue;

@@ -40,9 +40,14 @@ class Shipping {
   // exists at the current schema (the writer opened it).
   Shipping(const Config& config, std::shared_ptr<ShippingBoard> board);
   ~Shipping();  // stop()
-  // Ends the thread: a statement in progress in the warehouse is cancelled; what it had not
-  // committed is shipped again next time. Returns once the thread has ended.
+  // Asks the thread to end and returns at once: a statement in progress in the warehouse is
+  // cancelled (what it had not committed is shipped again next time), and nothing more is
+  // shipped. A connection being made may still take up to its timeout (10 s) to give up.
+  void request_stop();
+  // request_stop(), then waits for the thread to end.
   void stop();
+  // The thread has ended (stop() then returns at once).
+  bool finished() const { return finished_; }
 
  private:
   void run();
@@ -54,6 +59,7 @@ class Shipping {
   std::condition_variable wake_;
   bool stopping_ = false;         // guarded by mutex_
   std::function<void()> cancel_;  // guarded by mutex_: cancels the warehouse statement running
+  std::atomic<bool> finished_ = false;
   std::thread thread_;
 };
 

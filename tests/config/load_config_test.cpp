@@ -55,7 +55,8 @@ TEST_CASE("config/reference.yaml documents every key of the configuration contra
         "shape",     "width",          "side_slope", "diameter",     "points",    "breaks",
         "height",    "roughness",      "slope",      "offset",       "zero_flow", "checks",
         "min_stage", "max_stage",      "spike",      "spike_window", "max_rate",  "flatline",
-        "max_gap",   "max_clock_skew", "stage_units"}) {
+        "max_gap",   "max_clock_skew", "stage_units", "warehouse", "postgresql", "password_file",
+        "schema",    "plant"}) {
     CAPTURE(key);
     // Written as a key ("key:"), and named in a comment line that explains it.
     CHECK(text.str().find(std::string(key) + ":") != std::string::npos);

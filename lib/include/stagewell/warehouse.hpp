@@ -54,7 +54,8 @@ class Shipper {
   Result<ShipStep> step(std::size_t max_readings = 10000);
   bool connected() const;
   std::string target() const;  // empty until connected once
-  // Ends the connection; from another thread, cancels the statement in progress first.
+  // From any thread: cancels the warehouse statement in progress, and every later step fails
+  // (ErrorKind::cancelled) without shipping.
   void cancel();
 
  private:

@@ -236,8 +236,10 @@ struct Shipper::Impl {
   Store& store;
   std::optional<pg::Connection> connection;
   std::string target;
-  std::mutex cancel_mutex;       // guards `connection`'s existence against cancel()
-  std::set<std::string> staged;  // temporary tables made on this connection
+  std::mutex cancel_mutex;             // guards `connection`'s existence against cancel()
+  std::atomic<bool> cancelled{false};  // cancel() was called: nothing more is shipped
+  std::chrono::steady_clock::time_point last_answer{};  // the server's last answer
+  std::set<std::string> staged;                         // temporary tables made on this connection
 
   Impl(WarehouseSpec s, Store& st) : spec(std::move(s)), store(st) {}
 
@@ -375,6 +377,7 @@ bool Shipper::connected() const { return impl_->connection && impl_->connection-
 std::string Shipper::target() const { return impl_->target; }
 
 void Shipper::cancel() {
+  impl_->cancelled = true;
   std::lock_guard lock(impl_->cancel_mutex);
   if (impl_->connection) impl_->connection->cancel();
 }
@@ -391,14 +394,28 @@ Result<ShipStep> Shipper::step(std::size_t max_readings) {
     if (!paired) return failed(paired.error());
     step.started_over = *paired;
   }
+  // Cancelled while connecting: this shipper is being replaced, and must not ship beside the next.
+  if (impl_->cancelled) return failed(Error{ErrorKind::cancelled, "shipping was cancelled"});
   auto batch = impl_->store.shipping().next(max_readings, 2000);
   if (!batch) return failed(batch.error());
-  if (batch->empty()) return step;
+  if (batch->empty()) {
+    // Nothing to ship: a look at the server now and then, so that `connected` stays true to it.
+    const auto now = std::chrono::steady_clock::now();
+    if (now - impl_->last_answer >= std::chrono::seconds(10)) {
+      if (auto answered = impl_->connection->exec("SELECT 1"); !answered) {
+        return failed(Error{answered.error().kind, fmt::format("the warehouse does not answer: {}",
+                                                               answered.error().message)});
+      }
+      impl_->last_answer = now;
+    }
+    return step;
+  }
   const auto at = now_ms();
   if (auto sent = impl_->send(*batch, at); !sent) {
     return failed(Error{sent.error().kind,
                         fmt::format("shipping to the warehouse failed: {}", sent.error().message)});
   }
+  impl_->last_answer = std::chrono::steady_clock::now();
   if (auto recorded = impl_->store.shipping().shipped(*batch, at); !recorded) {
     // In the warehouse but not recorded here: sent again next time, replacing itself.
     return std::unexpected(recorded.error());
