@@ -26,6 +26,7 @@ import daemon_support as ds  # noqa: E402
 import warehouse_support as ws  # noqa: E402
 
 PLANT = "river-mill"  # invented
+SCHEMA = "mill_records"  # not the default schema: the `schema` key is used throughout
 START_MS = 1748736000000  # 2025-06-01T00:00:00Z (Python: datetime(2025,6,1,tzinfo=utc))
 MINUTE_MS = 60_000
 HISTORY_MINUTES = 150_000  # about 104 days, per site
@@ -113,13 +114,13 @@ def main():
 
         def in_warehouse():
             try:
-                return pg.rows(f'SELECT count(*) FROM "{ws.SCHEMA}".discharge WHERE plant = %s',
+                return pg.rows(f'SELECT count(*) FROM "{SCHEMA}".discharge WHERE plant = %s',
                                (PLANT,))[0][0]
             except ws.psycopg2.Error:
                 return 0  # the schema is not there yet
 
         # ---- (a) kill -9 in the middle of the backfill ---------------------------------------
-        ds.write(config, config_text(http_port, ws.warehouse_yaml(pg, PLANT)))
+        ds.write(config, config_text(http_port, ws.warehouse_yaml(pg, PLANT, schema=SCHEMA)))
         log = os.path.join(root, "daemon.log")
         env = ws.daemon_env()
         with ds.Daemon(daemon_program, config, log, env) as daemon:
@@ -140,11 +141,16 @@ def main():
             ok, last = ws.wait_for_lag_zero(stagewell, config, 300)
             r.check("after the kills: lag 0 within 300 s", ok, str(last))
             r.check("the service still runs", daemon.running(), daemon.log()[-1500:])
+            schemas = {row[0] for row in pg.rows(
+                "SELECT schema_name FROM information_schema.schemata WHERE schema_name IN "
+                "(%s, %s)", (SCHEMA, ws.SCHEMA))}
+            r.check(f"the warehouse is in the configured schema {SCHEMA}, not the default",
+                    schemas == {SCHEMA}, str(schemas))
             r.check("after the kills: every reading once in the warehouse",
                     in_warehouse() == total, f"{in_warehouse()} of {total}")
-            ws.compare_plant(r, "after kill -9 in the backfill", db, pg, PLANT)
-            ws.discharge_close(r, "after kill -9 in the backfill", db, pg, PLANT)
-            ws.reading_keys_once(r, "after kill -9 in the backfill", pg, PLANT)
+            ws.compare_plant(r, "after kill -9 in the backfill", db, pg, PLANT, schema=SCHEMA)
+            ws.discharge_close(r, "after kill -9 in the backfill", db, pg, PLANT, schema=SCHEMA)
+            ws.reading_keys_once(r, "after kill -9 in the backfill", pg, PLANT, SCHEMA)
 
             # ---- (b) PostgreSQL away for 20 s while readings arrive -----------------------------
             fed = 0
@@ -216,9 +222,9 @@ def main():
                     and m.get("stagewell_warehouse_lag_readings") == 0, str(m))
             r.check("the live readings all in the warehouse", in_warehouse() == total + fed,
                     f"{in_warehouse()} of {total + fed}")
-            ws.compare_plant(r, "after the outage", db, pg, PLANT)
-            ws.discharge_close(r, "after the outage", db, pg, PLANT)
-            ws.reading_keys_once(r, "after the outage", pg, PLANT)
+            ws.compare_plant(r, "after the outage", db, pg, PLANT, schema=SCHEMA)
+            ws.discharge_close(r, "after the outage", db, pg, PLANT, schema=SCHEMA)
+            ws.reading_keys_once(r, "after the outage", pg, PLANT, SCHEMA)
             r.check("SIGTERM: exit 0", daemon.stop() == 0, daemon.log()[-1500:])
     return r.finish()
 

@@ -388,19 +388,19 @@ def _first_difference(a_rows, b_rows):
 
 
 def compare_plant(r, label, db_path, c, plant, views=("discharge", "daily", "alarms", "rejects",
-                                                       "site_details")):
+                                                       "site_details"), schema=SCHEMA):
     """compare_view for every shipped view of one plant."""
     for view in views:
-        compare_view(r, label, db_path, c, view, plant)
+        compare_view(r, label, db_path, c, view, plant, schema)
 
 
-def discharge_close(r, label, db_path, c, plant, rel_tol=1e-12):
+def discharge_close(r, label, db_path, c, plant, rel_tol=1e-12, schema=SCHEMA):
     """Every reading's discharge in the warehouse within rel_tol of the local one (the brief's
     bound; compare_view checks them equal outright). NULL (out of range) must stay NULL."""
     local = {(s, t): q for s, t, q in ds.query(
         db_path, "SELECT site, time_ms, discharge FROM discharge")}
     remote = {(s, t): q for s, t, q in c.rows(
-        f'SELECT site, time_ms, discharge FROM "{SCHEMA}".discharge WHERE plant = %s', (plant,))}
+        f'SELECT site, time_ms, discharge FROM "{schema}".discharge WHERE plant = %s', (plant,))}
     worst, odd = 0.0, []
     for key, q in local.items():
         w = remote.get(key, "missing")
@@ -414,9 +414,9 @@ def discharge_close(r, label, db_path, c, plant, rel_tol=1e-12):
     return len(local)
 
 
-def reading_keys_once(r, label, c, plant):
+def reading_keys_once(r, label, c, plant, schema=SCHEMA):
     """The readings table's primary key makes a reading twice impossible; checked through the
     view anyway, by (site, time_ms) groups."""
-    twice = c.rows(f'SELECT site, time_ms, count(*) FROM "{SCHEMA}".discharge WHERE plant = %s '
+    twice = c.rows(f'SELECT site, time_ms, count(*) FROM "{schema}".discharge WHERE plant = %s '
                    "GROUP BY site, time_ms HAVING count(*) > 1 LIMIT 5", (plant,))
     r.check(f"{label}: no reading twice in the warehouse", not twice, str(twice))
