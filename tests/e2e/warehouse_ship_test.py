@@ -393,6 +393,21 @@ def main():
             r.check("metrics: last shipment's time is recent",
                     last is not None and started_at - 2 <= last <= time.time() + 2, str(last))
 
+            # ---- late readings: stored behind what was shipped, they must follow ----------------
+            late = ["site,time,stage"] + [
+                f"outfall,{ds.iso(START_MS + (300 + k) * MINUTE_MS + 30_000)},"
+                f"{round(stage('upper/outfall', 300 + k), 3)}" for k in range(20)]
+            want = upper.readings() + 20
+            ds.drop_file(upper.incoming, "late.csv", "\n".join(late) + "\n")
+            r.check("late readings stored locally", ds.wait_until(
+                lambda: upper.readings() == want, 60, 0.1), f"{upper.readings()} of {want}")
+            ok, last = ws.wait_for_lag_zero(stagewell, upper.config, 60)
+            r.check("late readings: lag 0 again within 60 s", ok, str(last))
+            compare(r, "late readings shipped", upper)
+            r.check("the late readings are in the warehouse", pg.rows(
+                f'SELECT count(*) FROM "{ws.SCHEMA}".discharge WHERE plant = %s AND '
+                "site = 'outfall' AND time_ms %% 60000 = 30000", (UPPER,))[0][0] == 20)
+
             # ---- a history change on the upper plant, by SIGHUP -------------------------------
             before = dict(((s, t), q) for s, t, q in pg.rows(
                 f'SELECT site, time_ms, discharge FROM "{ws.SCHEMA}".discharge '
