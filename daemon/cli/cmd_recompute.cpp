@@ -65,12 +65,8 @@ int run_recompute(const RecomputeOptions& options) {
     std::cerr << "no database at " << config->database.string() << ": nothing to recompute\n";
     return kInvalidInput;
   }
-  auto store = Store::open(config->database);
-  if (!store) {
-    std::cerr << "cannot open the database " << config->database.string() << ": "
-              << store.error().message << '\n';
-    return kInvalidInput;
-  }
+  auto store = open_store_or_report(*config);
+  if (!store) return kInvalidInput;
   // A store that ships logs what the recomputation changes, to send it again.
   if (auto tracked = store->shipping().track(config->warehouse.has_value()); !tracked) {
     std::cerr << "cannot open the database " << config->database.string() << ": "

@@ -143,12 +143,8 @@ int run_ship(const WarehouseOptions& options) {
     std::cerr << lock.error().message << "; it ships to the warehouse by itself\n";
     return kInvalidInput;
   }
-  auto store = Store::open(config->database);
-  if (!store) {
-    std::cerr << "cannot open the database " << config->database.string() << ": "
-              << store.error().message << '\n';
-    return kInvalidInput;
-  }
+  auto store = open_store_or_report(*config);
+  if (!store) return kInvalidInput;
   if (auto tracked = store->shipping().track(true); !tracked) {
     std::cerr << tracked.error().message << '\n';
     return kInvalidInput;

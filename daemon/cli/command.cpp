@@ -41,6 +41,16 @@ std::optional<std::string> find_config_or_report(const EnvironmentLookup& enviro
   return std::nullopt;
 }
 
+std::optional<Store> open_store_or_report(const Config& config) {
+  auto store = Store::open(config.database);
+  if (!store) {
+    std::cerr << "cannot open the database " << config.database.string() << ": "
+              << store.error().message << '\n';
+    return std::nullopt;
+  }
+  return std::move(*store);
+}
+
 std::optional<Config> load_config_or_report(const std::string& given) {
   std::string path = given;
   if (path.empty()) {

@@ -10,6 +10,7 @@
 #include <string_view>
 
 #include "stagewell/config.hpp"
+#include "stagewell/store.hpp"
 
 namespace stagewell::cli {
 
@@ -33,6 +34,9 @@ std::optional<std::string> find_config_or_report(const EnvironmentLookup& enviro
 // Loads and validates the configuration at `path`, or the one found when `path` is empty; on
 // failure prints every error to stderr.
 std::optional<Config> load_config_or_report(const std::string& path);
+
+// The configuration's database, read-write (created when missing); nullopt after printing why.
+std::optional<Store> open_store_or_report(const Config& config);
 
 // An RFC 3339 time option (`--from`, `--to`): `absent` when empty, nullopt after printing what
 // is wrong with it.

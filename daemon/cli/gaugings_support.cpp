@@ -6,16 +6,6 @@
 
 namespace stagewell::cli {
 
-std::optional<Store> open_store_or_report(const Config& config) {
-  auto store = Store::open(config.database);
-  if (!store) {
-    std::cerr << "cannot open the database " << config.database.string() << ": "
-              << store.error().message << '\n';
-    return std::nullopt;
-  }
-  return std::move(*store);
-}
-
 std::optional<OpenSite> open_site_or_report(Store& store, const Config& config,
                                             const std::string& id) {
   const SiteConfig* site = config.find_site(id);

@@ -11,9 +11,6 @@
 
 namespace stagewell::cli {
 
-// The configuration's database, read-write (created when missing); nullopt after printing why.
-std::optional<Store> open_store_or_report(const Config& config);
-
 struct OpenSite {
   SiteKey key;
   const SiteConfig* config = nullptr;

@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <thread>
 #include <nlohmann/json.hpp>
 
 namespace stagewell::pg {
@@ -131,8 +132,12 @@ Result<void> Connection::copy_in(std::string_view copy_sql, std::string_view dat
 
 void Connection::cancel() {
   if (!canceller_) return;
-  char message[256];
-  (void)PQcancel(canceller_.get(), message, sizeof message);
+  // PQcancel connects to the server anew and may wait as long as a connection to an unreachable
+  // host takes: on a thread of its own, so that whoever asks (the service's loop) never waits.
+  std::thread([canceller = canceller_] {
+    char message[256];
+    (void)PQcancel(canceller.get(), message, sizeof message);
+  }).detach();
 }
 
 std::optional<std::string> value(const PGresult* result, int row, int column) {

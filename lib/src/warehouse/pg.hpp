@@ -41,7 +41,8 @@ class Connection {
   // COPY ... FROM STDIN of `data` (text format lines).
   Result<void> copy_in(std::string_view copy_sql, std::string_view data);
 
-  // Asks the server to cancel what this connection runs now; safe from another thread.
+  // Asks the server to cancel what this connection runs now, from a thread of its own; returns at
+  // once. Safe from another thread.
   void cancel();
 
  private:
