@@ -2,11 +2,13 @@
 rows of `discharge`, `daily`, `alarms`, `rejects` and `site_details` there must equal its local
 SQLite views, value for value (floats bit for bit), with nothing missing and nothing twice, both
 after a first one-shot `stagewell warehouse ship` and while two `stagewelld` services ship
-continuously; and again after a history change recomputes readings (SIGHUP on one plant,
-`stagewell recompute` and a one-shot ship on the other). Around it: `warehouse check` (text and
---json), the warehouse metrics, a password in the connection string refused, a wrong or missing
-password file, a one-shot ship refused beside a running service, and the analyst's read-only
-role as docs/warehouse.md sets it up.
+continuously; again after late readings are stored behind what was shipped, and after a history
+change recomputes readings (SIGHUP on one plant, `stagewell recompute` and a one-shot ship on the
+other); and once more after `warehouse:` is taken out of a plant's configuration and put back.
+Around it: `warehouse check` (text and --json), the warehouse metrics, a password in the
+connection string refused without being repeated, a wrong or missing password file, a one-shot
+ship refused beside a running service, a second store under a taken plant name refused, and the
+analyst's read-only role as docs/operations.md sets it up.
 
 References: PostgreSQL 15 itself (a throwaway cluster, warehouse_support.py) read with psycopg2,
 an independent client; the local views read with Python's sqlite3 module; Manning's equation
