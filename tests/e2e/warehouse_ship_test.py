@@ -442,6 +442,10 @@ def main():
                     changed == sum(1 for (s, t) in after if t >= CHANGE_MS),
                     f"{changed} replaced")
             r.check("readings before the change untouched", unchanged_before)
+            # A stop ends the shipping thread too, promptly and cleanly (in the checking build a
+            # sanitizer's report would make the exit status non-zero).
+            for name, d in ((UPPER, upper_d), (LOWER, lower_d)):
+                r.check(f"SIGTERM: the {name} service exits 0", d.stop() == 0, d.log()[-1500:])
 
         # ---- a history change on the lower plant by `stagewell recompute`, shipped in one shot --
         lower.write(LOWER_CHANGE)
