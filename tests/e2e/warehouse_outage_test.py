@@ -9,6 +9,10 @@
     being stored locally, the service stays up and answers /metrics (with
     stagewell_warehouse_connected 0), `warehouse check` says it cannot connect but still reports
     the lag; PostgreSQL started again, the lag returns to 0 and the two are equal again.
+(c) A warehouse that accepts the connection and then never answers (a listening socket of this
+    script's that reads nothing and says nothing, as a hung server or a black-holed route does):
+    the service still stores readings, still answers /metrics, and stops at once on SIGTERM;
+    `warehouse check` gives up within its connection timeout.
 
 References: PostgreSQL 15 itself (a throwaway cluster, warehouse_support.py) read with psycopg2,
 an independent client; the local views read with Python's sqlite3 module; the readings are the
@@ -17,7 +21,9 @@ lines this script wrote (invented). Every wait is bounded and says what it expec
 import http.client
 import math
 import os
+import socket
 import sys
+import threading
 import tempfile
 import time
 
@@ -81,6 +87,40 @@ def metrics(port):
     finally:
         con.close()
     return {s.name: s.value for f in text_string_to_metric_families(body) for s in f.samples}
+
+
+class SilentServer:
+    """A TCP listener on loopback that accepts every connection and never reads or writes: to a
+    client it looks like a server that hangs after the connection is made. At most 16 held."""
+
+    def __init__(self):
+        self.listener = socket.socket()
+        self.listener.bind(("127.0.0.1", 0))
+        self.listener.listen(16)
+        self.listener.settimeout(0.2)
+        self.port = self.listener.getsockname()[1]
+        self.held = []
+        self.stopping = False
+        self.thread = threading.Thread(target=self._run, daemon=True)
+        self.thread.start()
+
+    def _run(self):
+        while not self.stopping:
+            try:
+                connection, _ = self.listener.accept()
+            except OSError:
+                continue
+            if len(self.held) < 16:
+                self.held.append(connection)
+            else:
+                connection.close()
+
+    def close(self):
+        self.stopping = True
+        self.thread.join(timeout=5)
+        for connection in self.held:
+            connection.close()
+        self.listener.close()
 
 
 def main():
@@ -226,6 +266,44 @@ def main():
             ws.discharge_close(r, "after the outage", db, pg, PLANT, schema=SCHEMA)
             ws.reading_keys_once(r, "after the outage", pg, PLANT, SCHEMA)
             r.check("SIGTERM: exit 0", daemon.stop() == 0, daemon.log()[-1500:])
+
+        # ---- (c) a warehouse that never answers -----------------------------------------------
+        silent = SilentServer()
+        try:
+            hung = (f'warehouse:\n  postgresql: "host=127.0.0.1 port={silent.port} '
+                    f'dbname={ws.DATABASE} user={ws.WRITER}"\n'
+                    f"  password_file: warehouse.password\n  plant: {PLANT}\n"
+                    f"  schema: {SCHEMA}\n")
+            ds.write(config, config_text(http_port, hung))
+            with ds.Daemon(daemon_program, config, os.path.join(root, "hung.log"), env) as daemon:
+                daemon.start()
+                r.check("hung warehouse: the service starts", ds.wait_until(
+                    lambda: "started" in daemon.log(), 60), daemon.log()[-1500:])
+                r.check("hung warehouse: the service holds a connection to it",
+                        ds.wait_until(lambda: silent.held, 30) is not None)
+                before = local_count()
+                feed(5)
+                r.check("hung warehouse: readings are still stored locally",
+                        ds.wait_until(lambda: local_count() == before + 5, 30),
+                        f"{local_count()} of {before + 5}")
+                answered = metrics(http_port)
+                r.check("hung warehouse: /metrics answers within 5 s, connected 0",
+                        answered is not None
+                        and answered.get("stagewell_warehouse_connected") == 0, str(answered))
+                asked = time.monotonic()
+                code, report, text = ws.check_json(stagewell, config)
+                took = time.monotonic() - asked
+                r.check("hung warehouse: warehouse check gives up within 30 s, exit 1, an error",
+                        code == 1 and took < 30 and bool((report or {}).get("error")),
+                        f"{took:.1f} s: {text[-600:]}")
+                stopping = time.monotonic()
+                code = daemon.stop(timeout_s=30)
+                took = time.monotonic() - stopping
+                r.check("hung warehouse: SIGTERM stops the service within 5 s, exit 0",
+                        code == 0 and took < 5, f"exit {code} after {took:.1f} s; "
+                        f"{daemon.log()[-1500:]}")
+        finally:
+            silent.close()
     return r.finish()
 
 
