@@ -19,6 +19,23 @@ inline std::string yaml_text(std::string_view text) {
   return std::string(text);
 }
 
+// Seven lines that make a valid configuration of one culvert site, for tests of the top-level
+// sections written after them (line 8 on).
+inline constexpr std::string_view kOneSiteLines = R"(
+units: metric            # 1
+database: flows.db       # 2
+sites:                   # 3
+  - id: outlet           # 4
+    section: {shape: circular, diameter: 0.9} # 5
+    roughness: 0.013     # 6
+    slope: 0.002         # 7
+)";
+
+// kOneSiteLines followed by `tail`, parsed as test.yaml in /srv/flows.
+inline ConfigResult parse_after_one_site(std::string_view tail) {
+  return parse_config(yaml_text(kOneSiteLines) + std::string(tail), "test.yaml", "/srv/flows");
+}
+
 // The errors of a configuration given as text (none when it loads).
 inline std::vector<ConfigError> errors_of(std::string_view text) {
   auto result = parse_config(yaml_text(text), "test.yaml", "/srv/flows");

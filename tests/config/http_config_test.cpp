@@ -7,22 +7,11 @@
 using stagewell::test::errors_of;
 using stagewell::test::expect_one_error;
 using stagewell::test::listing;
-using stagewell::test::yaml_text;
 
 namespace {
 
-constexpr const char* kSites = R"(
-units: metric            # 1
-database: flows.db       # 2
-sites:                   # 3
-  - id: outlet           # 4
-    section: {shape: circular, diameter: 0.9} # 5
-    roughness: 0.013     # 6
-    slope: 0.002         # 7
-)";
-
 stagewell::ConfigResult load(std::string_view tail) {
-  return stagewell::parse_config(yaml_text(kSites) + std::string(tail), "test.yaml", "/srv/flows");
+  return stagewell::test::parse_after_one_site(tail);
 }
 
 }  // namespace
@@ -64,12 +53,12 @@ TEST_CASE("IPv6 loopback in brackets") {
 
 TEST_CASE("a listen address without a port is an error on its line and column") {
   // "listen" on line 9; its value starts at column 11 (1-based).
-  expect_one_error(std::string(kSites) + "http:                    # 8\n  listen: localhost # 9\n",
+  expect_one_error(std::string(stagewell::test::kOneSiteLines) + "http:                    # 8\n  listen: localhost # 9\n",
                    9, "test.yaml:9:11: http.listen = localhost: must be ADDRESS:PORT");
 }
 
 TEST_CASE("a port out of range, an unknown key and a zero limit are each reported") {
-  const auto errors = errors_of(std::string(kSites) +
+  const auto errors = errors_of(std::string(stagewell::test::kOneSiteLines) +
                                 "http:                    # 8\n"
                                 "  listen: 127.0.0.1:70000 # 9\n"
                                 "  max_conections: 3      # 10\n"

@@ -8,22 +8,11 @@
 #include "config_test_support.hpp"
 
 using stagewell::test::listing;
-using stagewell::test::yaml_text;
 
 namespace {
 
-constexpr const char* kSites = R"(
-units: metric            # 1
-database: flows.db       # 2
-sites:                   # 3
-  - id: outlet           # 4
-    section: {shape: circular, diameter: 0.9} # 5
-    roughness: 0.013     # 6
-    slope: 0.002         # 7
-)";
-
 stagewell::ConfigResult load(std::string_view tail) {
-  return stagewell::parse_config(yaml_text(kSites) + std::string(tail), "test.yaml", "/srv/flows");
+  return stagewell::test::parse_after_one_site(tail);
 }
 
 bool refused_at(std::string_view tail, int line, std::string_view fragment) {
