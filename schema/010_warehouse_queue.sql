@@ -9,10 +9,10 @@
 -- at or before it has been shipped), readings later than the site's latest stored one are shipped
 -- by moving that position, and the program logs the few that change behind it (a late reading, a
 -- flag added afterwards, a recomputation) as time ranges in warehouse_changes. Every other shipped
--- table is small and logs each changed row by trigger.
+-- table is small and logs each changed row by trigger (made only while the store ships).
 
 -- One row once the store has been opened with a `warehouse:` configured. While `tracking` is 1 the
--- triggers below and the program's range log record changes. Opened without a warehouse, the
+-- triggers exist and the program's range log records changes. Opened without a warehouse, the
 -- store stops tracking and forgets its positions and the queue (a warehouse configured again
 -- later is then sent the whole record), but keeps its store_id, so that it is still the store
 -- that feeds its plant.
@@ -44,9 +44,8 @@ CREATE TABLE warehouse_positions (
 --   item 'version' : config_versions row number_key
 --   item 'site'    : the site_settings of site_key
 -- Each item other than 'readings' is logged once (a new change of the same row deletes the entry
--- and logs it anew, at the end; not INSERT OR REPLACE, which the statement that fires a trigger
--- overrides with its own conflict handling): the shipper sends the row as it is when it is shipped, or deletes it in
--- the warehouse when it is gone.
+-- and logs it anew, at the end): the shipper sends the row as it is when it is shipped, or deletes
+-- it in the warehouse when it is gone.
 CREATE TABLE warehouse_changes (
   change_id INTEGER PRIMARY KEY AUTOINCREMENT,
   item TEXT NOT NULL,
@@ -56,82 +55,8 @@ CREATE TABLE warehouse_changes (
   from_ms INTEGER,
   to_ms INTEGER
 );
--- How a trigger finds the entry a new change replaces.
+-- How a trigger finds the entry a new change replaces. The triggers that log the small tables'
+-- changes (INSERT, UPDATE, DELETE on daily_figures, alarm_events, rejected_lines, config_versions
+-- and site_settings) are made by the program while the store ships, and dropped when it stops
+-- (lib/src/store/shipping_queue.cpp): a store that ships nowhere pays nothing for them.
 CREATE INDEX warehouse_changes_row ON warehouse_changes (item, site_key, day, number_key);
-
-CREATE TRIGGER warehouse_daily_insert AFTER INSERT ON daily_figures
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
-  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
-END;
-CREATE TRIGGER warehouse_daily_update AFTER UPDATE ON daily_figures
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
-  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
-END;
-CREATE TRIGGER warehouse_daily_delete AFTER DELETE ON daily_figures
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = OLD.site_key AND day = OLD.day;
-  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', OLD.site_key, OLD.day);
-END;
-
-CREATE TRIGGER warehouse_alarm_insert AFTER INSERT ON alarm_events
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
-END;
-CREATE TRIGGER warehouse_alarm_update AFTER UPDATE ON alarm_events
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
-END;
-CREATE TRIGGER warehouse_alarm_delete AFTER DELETE ON alarm_events
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = OLD.alarm_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', OLD.alarm_id);
-END;
-
-CREATE TRIGGER warehouse_reject_insert AFTER INSERT ON rejected_lines
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = NEW.reject_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', NEW.reject_id);
-END;
-CREATE TRIGGER warehouse_reject_delete AFTER DELETE ON rejected_lines
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = OLD.reject_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', OLD.reject_id);
-END;
-
-CREATE TRIGGER warehouse_version_insert AFTER INSERT ON config_versions
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'version' AND number_key = NEW.config_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('version', NEW.config_id);
-END;
-
-CREATE TRIGGER warehouse_site_insert AFTER INSERT ON site_settings
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
-  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
-END;
-CREATE TRIGGER warehouse_site_update AFTER UPDATE ON site_settings
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
-  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
-END;
-CREATE TRIGGER warehouse_site_delete AFTER DELETE ON site_settings
-WHEN EXISTS (SELECT 1 FROM warehouse_state WHERE tracking = 1)
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = OLD.site_key;
-  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', OLD.site_key);
-END;

@@ -24,6 +24,83 @@ constexpr std::int64_t kRangeJoinMs = 6LL * 3600 * 1000;
 
 constexpr std::int64_t kBeforeAll = std::numeric_limits<std::int64_t>::min();
 
+// The triggers that log each change of a small table's row, made while the store ships (track):
+// a newer change of the same row deletes its entry and logs it anew, at the end (not INSERT OR
+// REPLACE, which the statement that fires a trigger overrides with its own conflict handling).
+constexpr std::string_view kLogTriggers = R"sql(
+CREATE TRIGGER IF NOT EXISTS warehouse_daily_insert AFTER INSERT ON daily_figures
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
+  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_daily_update AFTER UPDATE ON daily_figures
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
+  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_daily_delete AFTER DELETE ON daily_figures
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = OLD.site_key AND day = OLD.day;
+  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', OLD.site_key, OLD.day);
+END;
+
+CREATE TRIGGER IF NOT EXISTS warehouse_alarm_insert AFTER INSERT ON alarm_events
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
+  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_alarm_update AFTER UPDATE ON alarm_events
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
+  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_alarm_delete AFTER DELETE ON alarm_events
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = OLD.alarm_id;
+  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', OLD.alarm_id);
+END;
+
+CREATE TRIGGER IF NOT EXISTS warehouse_reject_insert AFTER INSERT ON rejected_lines
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = NEW.reject_id;
+  INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', NEW.reject_id);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_reject_delete AFTER DELETE ON rejected_lines
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = OLD.reject_id;
+  INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', OLD.reject_id);
+END;
+
+CREATE TRIGGER IF NOT EXISTS warehouse_version_insert AFTER INSERT ON config_versions
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'version' AND number_key = NEW.config_id;
+  INSERT INTO warehouse_changes (item, number_key) VALUES ('version', NEW.config_id);
+END;
+
+CREATE TRIGGER IF NOT EXISTS warehouse_site_insert AFTER INSERT ON site_settings
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
+  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_site_update AFTER UPDATE ON site_settings
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
+  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
+END;
+CREATE TRIGGER IF NOT EXISTS warehouse_site_delete AFTER DELETE ON site_settings
+BEGIN
+  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = OLD.site_key;
+  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', OLD.site_key);
+END;
+)sql";
+
+constexpr std::string_view kLogTriggerNames[] = {
+    "warehouse_daily_insert",  "warehouse_daily_update",  "warehouse_daily_delete",
+    "warehouse_alarm_insert",  "warehouse_alarm_update",  "warehouse_alarm_delete",
+    "warehouse_reject_insert", "warehouse_reject_delete", "warehouse_version_insert",
+    "warehouse_site_insert",   "warehouse_site_update",   "warehouse_site_delete",
+};
+
 std::string random_id() {
   std::random_device device;
   std::uniform_int_distribution<std::uint32_t> word;
@@ -183,6 +260,11 @@ Result<void> ShippingQueue::track(bool on) {
   return store_detail::in_own_batch(*core_, "record shipping", [&](WriteBatch&) -> Result<void> {
     auto& db = core_->db();
     if (!on) {
+      for (const auto name : kLogTriggerNames) {
+        if (auto done = db.exec(fmt::format("DROP TRIGGER IF EXISTS {}", name)); !done) {
+          return done;
+        }
+      }
       // The store id stays: this is still the store that feeds its plant.
       if (auto done = db.exec("UPDATE warehouse_state SET tracking = 0, warehouse_id = NULL, "
                               "plant = NULL, last_shipped_ms = NULL");
@@ -197,7 +279,8 @@ Result<void> ShippingQueue::track(bool on) {
         "ON CONFLICT (one) DO UPDATE SET tracking = 1");
     if (!insert) return std::unexpected(insert.error());
     (*insert)->bind(1, random_id());
-    return (*insert)->run();
+    if (auto done = (*insert)->run(); !done) return done;
+    return db.exec(kLogTriggers);  // IF NOT EXISTS: made once, the schema unchanged after
   });
 }
 
