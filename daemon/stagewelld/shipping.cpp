@@ -159,12 +159,11 @@ void Shipping::run() {
       last_progress = now;
       shipped_since_progress = 0;
     }
-    auto state = store->shipping().state();
     board_->update([&](WarehouseFigures& f) {
       f.connected = true;
       f.lag_readings = lag_now;
       f.shipped_readings += static_cast<std::int64_t>(step->readings);
-      if (state && *state) f.last_shipped_ms = (*state)->last_shipped_ms;
+      if (step->shipped_ms) f.last_shipped_ms = step->shipped_ms;
     });
     if (step->idle()) pause(std::chrono::duration_cast<milliseconds>(kIdleLook));
   }

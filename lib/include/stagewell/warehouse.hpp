@@ -36,6 +36,7 @@ struct ShipStep {
   std::size_t rows = 0;       // other rows sent or deleted
   bool started_over = false;  // the warehouse is new to this store: its whole record is queued
   bool moved = false;         // the queue moved on (a batch was shipped, if only log entries)
+  std::optional<std::int64_t> shipped_ms;  // when the warehouse committed it (ms since epoch)
   bool idle() const { return !moved; }
 };
 

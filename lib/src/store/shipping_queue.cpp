@@ -24,83 +24,6 @@ constexpr std::int64_t kRangeJoinMs = 6LL * 3600 * 1000;
 
 constexpr std::int64_t kBeforeAll = std::numeric_limits<std::int64_t>::min();
 
-// The triggers that log each change of a small table's row, made while the store ships (track):
-// a newer change of the same row deletes its entry and logs it anew, at the end (not INSERT OR
-// REPLACE, which the statement that fires a trigger overrides with its own conflict handling).
-constexpr std::string_view kLogTriggers = R"sql(
-CREATE TRIGGER IF NOT EXISTS warehouse_daily_insert AFTER INSERT ON daily_figures
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
-  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_daily_update AFTER UPDATE ON daily_figures
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = NEW.site_key AND day = NEW.day;
-  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', NEW.site_key, NEW.day);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_daily_delete AFTER DELETE ON daily_figures
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'daily' AND site_key = OLD.site_key AND day = OLD.day;
-  INSERT INTO warehouse_changes (item, site_key, day) VALUES ('daily', OLD.site_key, OLD.day);
-END;
-
-CREATE TRIGGER IF NOT EXISTS warehouse_alarm_insert AFTER INSERT ON alarm_events
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_alarm_update AFTER UPDATE ON alarm_events
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = NEW.alarm_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', NEW.alarm_id);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_alarm_delete AFTER DELETE ON alarm_events
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'alarm' AND number_key = OLD.alarm_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('alarm', OLD.alarm_id);
-END;
-
-CREATE TRIGGER IF NOT EXISTS warehouse_reject_insert AFTER INSERT ON rejected_lines
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = NEW.reject_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', NEW.reject_id);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_reject_delete AFTER DELETE ON rejected_lines
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'reject' AND number_key = OLD.reject_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('reject', OLD.reject_id);
-END;
-
-CREATE TRIGGER IF NOT EXISTS warehouse_version_insert AFTER INSERT ON config_versions
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'version' AND number_key = NEW.config_id;
-  INSERT INTO warehouse_changes (item, number_key) VALUES ('version', NEW.config_id);
-END;
-
-CREATE TRIGGER IF NOT EXISTS warehouse_site_insert AFTER INSERT ON site_settings
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
-  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_site_update AFTER UPDATE ON site_settings
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = NEW.site_key;
-  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', NEW.site_key);
-END;
-CREATE TRIGGER IF NOT EXISTS warehouse_site_delete AFTER DELETE ON site_settings
-BEGIN
-  DELETE FROM warehouse_changes WHERE item = 'site' AND site_key = OLD.site_key;
-  INSERT INTO warehouse_changes (item, site_key) VALUES ('site', OLD.site_key);
-END;
-)sql";
-
-constexpr std::string_view kLogTriggerNames[] = {
-    "warehouse_daily_insert",  "warehouse_daily_update",  "warehouse_daily_delete",
-    "warehouse_alarm_insert",  "warehouse_alarm_update",  "warehouse_alarm_delete",
-    "warehouse_reject_insert", "warehouse_reject_delete", "warehouse_version_insert",
-    "warehouse_site_insert",   "warehouse_site_update",   "warehouse_site_delete",
-};
-
 std::string random_id() {
   std::random_device device;
   std::uniform_int_distribution<std::uint32_t> word;
@@ -108,18 +31,83 @@ std::string random_id() {
                      word(device));
 }
 
+// How each small table's changes are logged in warehouse_changes: its item name, the table, which
+// of the log's key columns (site_key, day, number_key) it fills from which of its own columns, and
+// on which statements. One description gives the triggers (made while the store ships), their
+// names, and the full log of a new warehouse (pair).
+struct LoggedTable {
+  ShipTable table;
+  std::string_view item;
+  std::string_view source;
+  std::vector<std::pair<std::string_view, std::string_view>> keys;  // log column, source column
+  std::vector<std::string_view> events;  // insert, update, delete (SQL reads them in any case)
+};
+
+const std::vector<LoggedTable>& logged_tables() {
+  static const std::vector<LoggedTable> tables{
+      {ShipTable::daily,
+       "daily",
+       "daily_figures",
+       {{"site_key", "site_key"}, {"day", "day"}},
+       {"insert", "update", "delete"}},
+      {ShipTable::alarm,
+       "alarm",
+       "alarm_events",
+       {{"number_key", "alarm_id"}},
+       {"insert", "update", "delete"}},
+      {ShipTable::reject,
+       "reject",
+       "rejected_lines",
+       {{"number_key", "reject_id"}},
+       {"insert", "delete"}},
+      {ShipTable::version, "version", "config_versions", {{"number_key", "config_id"}}, {"insert"}},
+      {ShipTable::site,
+       "site",
+       "site_settings",
+       {{"site_key", "site_key"}},
+       {"insert", "update", "delete"}},
+  };
+  return tables;
+}
+
+std::string trigger_name(const LoggedTable& t, std::string_view event) {
+  return fmt::format("warehouse_{}_{}", t.item, event);
+}
+
+// A newer change of the same row deletes its entry and logs it anew, at the end (not INSERT OR
+// REPLACE, which the statement that fires a trigger overrides with its own conflict handling).
+std::string trigger_sql(const LoggedTable& t, std::string_view event) {
+  const std::string_view row = event == "delete" ? "OLD" : "NEW";
+  std::string match;
+  std::string columns;
+  std::string values;
+  for (const auto& [log_column, source_column] : t.keys) {
+    match += fmt::format(" AND {} = {}.{}", log_column, row, source_column);
+    columns += fmt::format(", {}", log_column);
+    values += fmt::format(", {}.{}", row, source_column);
+  }
+  return fmt::format(
+      "CREATE TRIGGER IF NOT EXISTS {0} AFTER {1} ON {2} BEGIN "
+      "DELETE FROM warehouse_changes WHERE item = '{3}'{4}; "
+      "INSERT INTO warehouse_changes (item{5}) VALUES ('{3}'{6}); END;",
+      trigger_name(t, event), event, t.source, t.item, match, columns, values);
+}
+
+// Every row of the table logged, as if each had just changed.
+std::string log_all_sql(const LoggedTable& t) {
+  std::string columns;
+  std::string values;
+  for (const auto& [log_column, source_column] : t.keys) {
+    columns += fmt::format(", {}", log_column);
+    values += fmt::format(", {}", source_column);
+  }
+  return fmt::format("INSERT INTO warehouse_changes (item{}) SELECT '{}'{} FROM {}", columns,
+                     t.item, values, t.source);
+}
+
 std::string_view item_name(ShipTable table) {
-  switch (table) {
-    case ShipTable::daily:
-      return "daily";
-    case ShipTable::alarm:
-      return "alarm";
-    case ShipTable::reject:
-      return "reject";
-    case ShipTable::version:
-      return "version";
-    case ShipTable::site:
-      return "site";
+  for (const auto& t : logged_tables()) {
+    if (t.table == table) return t.item;
   }
   return "";
 }
@@ -260,9 +248,10 @@ Result<void> ShippingQueue::track(bool on) {
   return store_detail::in_own_batch(*core_, "record shipping", [&](WriteBatch&) -> Result<void> {
     auto& db = core_->db();
     if (!on) {
-      for (const auto name : kLogTriggerNames) {
-        if (auto done = db.exec(fmt::format("DROP TRIGGER IF EXISTS {}", name)); !done) {
-          return done;
+      for (const auto& t : logged_tables()) {
+        for (const auto event : t.events) {
+          auto dropped = db.exec(fmt::format("DROP TRIGGER IF EXISTS {}", trigger_name(t, event)));
+          if (!dropped) return dropped;
         }
       }
       // The store id stays: this is still the store that feeds its plant.
@@ -280,7 +269,13 @@ Result<void> ShippingQueue::track(bool on) {
     if (!insert) return std::unexpected(insert.error());
     (*insert)->bind(1, random_id());
     if (auto done = (*insert)->run(); !done) return done;
-    return db.exec(kLogTriggers);  // IF NOT EXISTS: made once, the schema unchanged after
+    // IF NOT EXISTS: made once, the schema unchanged after.
+    for (const auto& t : logged_tables()) {
+      for (const auto event : t.events) {
+        if (auto made = db.exec(trigger_sql(t, event)); !made) return made;
+      }
+    }
+    return {};
   });
 }
 
@@ -311,21 +306,10 @@ Result<bool> ShippingQueue::pair(std::string_view warehouse_id, std::string_view
         (*update)->bind(1, warehouse_id);
         (*update)->bind(2, plant);
         if (auto done = (*update)->run(); !done) return done;
-        for (const char* sql : {
-                 "DELETE FROM warehouse_positions",
-                 "DELETE FROM warehouse_changes",
-                 "INSERT INTO warehouse_changes (item, site_key, day) "
-                 "SELECT 'daily', site_key, day FROM daily_figures",
-                 "INSERT INTO warehouse_changes (item, number_key) "
-                 "SELECT 'alarm', alarm_id FROM alarm_events",
-                 "INSERT INTO warehouse_changes (item, number_key) "
-                 "SELECT 'reject', reject_id FROM rejected_lines",
-                 "INSERT INTO warehouse_changes (item, number_key) "
-                 "SELECT 'version', config_id FROM config_versions",
-                 "INSERT INTO warehouse_changes (item, site_key) "
-                 "SELECT 'site', site_key FROM site_settings",
-             }) {
-          if (auto done = db.exec(sql); !done) return done;
+        if (auto done = db.exec("DELETE FROM warehouse_positions"); !done) return done;
+        if (auto done = db.exec("DELETE FROM warehouse_changes"); !done) return done;
+        for (const auto& t : logged_tables()) {
+          if (auto done = db.exec(log_all_sql(t)); !done) return done;
         }
         return {};
       });

@@ -423,6 +423,7 @@ Result<ShipStep> Shipper::step(std::size_t max_readings) {
   step.readings = batch->readings.size();
   step.rows = batch->other_rows();
   step.moved = true;
+  step.shipped_ms = at;
   return step;
 }
 
